@@ -1,0 +1,106 @@
+//! The language reference, one entry per verb (shown by `help` and by inspection).
+
+/// One verb's help.
+#[derive(Debug, Clone, Copy)]
+pub struct VerbHelp {
+    /// The verb.
+    pub verb: &'static str,
+    /// The statement's shape.
+    pub usage: &'static str,
+    /// What it does.
+    pub summary: &'static str,
+    /// Options after `with`.
+    pub options: &'static [(&'static str, &'static str)],
+    /// An example.
+    pub example: &'static str,
+}
+
+/// Every verb.
+pub const VERBS: &[VerbHelp] = &[
+    VerbHelp {
+        verb: "read",
+        usage: "read \"PATH\" as NAME [with OPTION VALUE, …]",
+        summary: "Loads a CSV, TSV or semicolon-separated file as dataset NAME. The separator is detected from the header line; numeric and factor columns are detected from the values.",
+        options: &[
+            ("factor C1 C2 …", "treat these numeric columns as factor levels (dose codes, blocks)"),
+            ("missing \"X\"", "also treat X as a missing value (empty, NA and . always are)"),
+            ("delimiter \";\"", "the field separator: \",\", \";\" or \"tab\""),
+            ("decimal \",\"", "numbers are written with a decimal comma"),
+            ("header N", "the header is on line N (lines above it are skipped); 0 for no header"),
+        ],
+        example: "read \"data/feeding.csv\" as trial with factor pen",
+    },
+    VerbHelp {
+        verb: "show",
+        usage: "show NAME [with rows N]",
+        summary: "Shows the first rows of a dataset with each column's type, levels and missing count.",
+        options: &[("rows N", "how many rows to show (default 10)")],
+        example: "show trial with rows 5",
+    },
+    VerbHelp {
+        verb: "levels",
+        usage: "levels NAME.COLUMN \"a\", \"b\", …",
+        summary: "Sets the order of a factor's levels; tables and figures follow it. Levels not named keep their order after the named ones.",
+        options: &[],
+        example: "levels trial.feed \"standard\", \"low protein\", \"high protein\"",
+    },
+    VerbHelp {
+        verb: "label",
+        usage: "label NAME.COLUMN \"text\"",
+        summary: "Sets the label used for a column on axes and in sentences.",
+        options: &[],
+        example: "label trial.gain \"Weight gain (g)\"",
+    },
+    VerbHelp {
+        verb: "describe",
+        usage: "describe Y across F [in NAME] [where CONDITION] [with level L]",
+        summary: "Per level of F: n, mean, SD, SE and a confidence interval of the mean, with a figure of the means and every observation.",
+        options: &[("level L", "confidence level of the intervals (default 0.95)")],
+        example: "describe gain across feed in trial",
+    },
+    VerbHelp {
+        verb: "anova",
+        usage: "anova Y across F [in NAME] [where CONDITION]",
+        summary: "One-way between-subjects analysis of variance of Y across the levels of F: table (df, SS, MS, F, p, η², ω²), figure, report sentence and notes.",
+        options: &[],
+        example: "anova gain across feed in trial where pen != \"P4\"",
+    },
+    VerbHelp {
+        verb: "plot",
+        usage: "plot KIND Y across F [in NAME] [where CONDITION]",
+        summary: "A figure of Y across F. KIND: means (means with 95% CIs beside every observation), box (box plots with every observation), points (every observation).",
+        options: &[("level L", "confidence level of the intervals in `means` (default 0.95)")],
+        example: "plot box gain across feed",
+    },
+    VerbHelp {
+        verb: "help",
+        usage: "help [VERB]",
+        summary: "The language reference, or one verb's entry.",
+        options: &[],
+        example: "help anova",
+    },
+];
+
+/// Conditions shared by the analysis verbs.
+pub const WHERE_HELP: &str = "where: compare a column with a number or a quoted string (= != < <= > >=), or test membership with `in (\"a\", \"b\")`; join with `and` / `or`; group with parentheses.";
+
+/// The entry for `verb`.
+pub fn verb(verb: &str) -> Option<&'static VerbHelp> {
+    VERBS.iter().find(|v| v.verb == verb)
+}
+
+/// One verb's entry as plain text.
+pub fn verb_text(h: &VerbHelp) -> String {
+    let mut s = format!("{}\n\n{}\n", h.usage, h.summary);
+    if !h.options.is_empty() {
+        s.push_str("\noptions (after `with`, separated by commas):\n");
+        for (o, d) in h.options {
+            s.push_str(&format!("  {o:<16} {d}\n"));
+        }
+    }
+    if h.usage.contains("where") {
+        s.push_str(&format!("\n{WHERE_HELP}\n"));
+    }
+    s.push_str(&format!("\nexample:\n  {}", h.example));
+    s
+}

@@ -1,0 +1,212 @@
+//! The syntax tree: statements with byte spans, checked for syntax only.
+
+use crate::error::Span;
+
+/// A value with the span it came from.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Spanned<T> {
+    /// The value.
+    pub value: T,
+    /// Where it stands in the cell source.
+    pub span: Span,
+}
+
+impl<T> Spanned<T> {
+    /// Wraps `value`.
+    pub fn new(value: T, span: Span) -> Self {
+        Spanned { value, span }
+    }
+}
+
+/// A name (dataset, column).
+pub type Name = Spanned<String>;
+
+/// One statement of a cell.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Statement {
+    /// The whole statement.
+    pub span: Span,
+    /// What it asks for.
+    pub kind: StmtKind,
+}
+
+/// Statement kinds, one per verb.
+#[derive(Debug, Clone, PartialEq)]
+pub enum StmtKind {
+    /// `read "PATH" as NAME [with …]`
+    Read {
+        /// The path.
+        path: Spanned<String>,
+        /// The dataset name.
+        name: Name,
+        /// Options.
+        options: Vec<Opt>,
+    },
+    /// `show NAME [with rows N]`
+    Show {
+        /// The dataset.
+        name: Name,
+        /// Options.
+        options: Vec<Opt>,
+    },
+    /// `levels NAME.COLUMN "a", "b"`
+    Levels {
+        /// The factor.
+        target: ColumnRef,
+        /// The levels in the wanted order.
+        order: Vec<Spanned<String>>,
+    },
+    /// `label NAME.COLUMN "text"`
+    Label {
+        /// The column.
+        target: ColumnRef,
+        /// The label.
+        text: Spanned<String>,
+    },
+    /// `describe`, `anova`, `plot KIND` with the shared clauses.
+    Analysis(Analysis),
+    /// `help [TOPIC]`
+    Help {
+        /// The verb asked about.
+        topic: Option<Name>,
+    },
+    /// `pause SECONDS` (tests only).
+    Pause {
+        /// Seconds to wait.
+        seconds: Spanned<f64>,
+    },
+}
+
+/// `DATASET.COLUMN`, or a bare `COLUMN` of the current dataset.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ColumnRef {
+    /// The dataset, if named.
+    pub dataset: Option<Name>,
+    /// The column.
+    pub column: Name,
+}
+
+/// Analysis verbs.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Verb {
+    /// Per-cell summaries.
+    Describe,
+    /// Analysis of variance.
+    Anova,
+    /// A figure of the given kind.
+    Plot(PlotKind),
+}
+
+impl Verb {
+    /// The verb as written.
+    pub fn word(self) -> &'static str {
+        match self {
+            Verb::Describe => "describe",
+            Verb::Anova => "anova",
+            Verb::Plot(_) => "plot",
+        }
+    }
+}
+
+/// Figure kinds.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum PlotKind {
+    /// Means with 95% CIs and every point.
+    Means,
+    /// Box plots with every point.
+    Box,
+    /// Every point.
+    Points,
+}
+
+impl PlotKind {
+    /// Every kind with its word.
+    pub const ALL: [(&'static str, PlotKind); 3] =
+        [("means", PlotKind::Means), ("box", PlotKind::Box), ("points", PlotKind::Points)];
+    /// The word.
+    pub fn word(self) -> &'static str {
+        match self {
+            PlotKind::Means => "means",
+            PlotKind::Box => "box",
+            PlotKind::Points => "points",
+        }
+    }
+}
+
+/// `VERB Y across F… [in D] [subject S] [where C] [with …]`
+#[derive(Debug, Clone, PartialEq)]
+pub struct Analysis {
+    /// The verb.
+    pub verb: Verb,
+    /// The verb's span.
+    pub verb_span: Span,
+    /// The response column.
+    pub response: Name,
+    /// The factors.
+    pub factors: Vec<Name>,
+    /// `in DATASET`.
+    pub dataset: Option<Name>,
+    /// `subject COLUMN`.
+    pub subject: Option<Name>,
+    /// `where …`.
+    pub filter: Option<Expr>,
+    /// `with …`.
+    pub options: Vec<Opt>,
+}
+
+/// A `with` option: a name and zero or more values.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Opt {
+    /// The option name.
+    pub name: Name,
+    /// Its values.
+    pub values: Vec<Spanned<Value>>,
+    /// The whole option.
+    pub span: Span,
+}
+
+/// A literal value.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Value {
+    /// A number with its source text.
+    Num(f64, String),
+    /// A quoted string.
+    Str(String),
+    /// A bare word.
+    Word(String),
+}
+
+impl Value {
+    /// The value as text (for matching levels and names).
+    pub fn text(&self) -> String {
+        match self {
+            Value::Num(_, t) => t.clone(),
+            Value::Str(s) | Value::Word(s) => s.clone(),
+        }
+    }
+}
+
+/// A `where` condition.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Expr {
+    /// Both hold.
+    And(Box<Expr>, Box<Expr>),
+    /// Either holds.
+    Or(Box<Expr>, Box<Expr>),
+    /// `COLUMN OP VALUE`.
+    Compare {
+        /// The column.
+        column: Name,
+        /// The operator.
+        op: Spanned<&'static str>,
+        /// The value.
+        value: Spanned<Value>,
+    },
+    /// `COLUMN in (V, …)`.
+    In {
+        /// The column.
+        column: Name,
+        /// The set.
+        values: Vec<Spanned<Value>>,
+    },
+}

@@ -1,0 +1,6 @@
+//! Computations. Each model file opens with its method, assumptions, degenerate cases and
+//! references; models take plain numbers and never look up names.
+
+pub mod describe;
+pub mod oneway;
+pub mod sums;

@@ -1,0 +1,217 @@
+//! Figures as SVG through plotters (SVG backend only: no system fonts or C libraries).
+//!
+//! Every figure shows every observation (jittered deterministically, so a rerun draws the same
+//! picture) and, by kind, the group means with their confidence intervals or box plots.
+//! Colours come from Partita's own palette of six hues chosen to stay distinct under the common
+//! colour-vision deficiencies.
+
+use crate::lang::ast::PlotKind;
+use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, Pos, VPos};
+
+/// Partita's palette.
+pub const PALETTE: [RGBColor; 6] = [
+    RGBColor(0x1f, 0x5f, 0x9e),
+    RGBColor(0xd9, 0x7a, 0x1e),
+    RGBColor(0x2e, 0x8b, 0x6a),
+    RGBColor(0xa8, 0x4c, 0x8c),
+    RGBColor(0x6b, 0x6b, 0x6b),
+    RGBColor(0x8a, 0x6d, 0x1b),
+];
+
+/// One group to draw.
+#[derive(Debug, Clone)]
+pub struct Group {
+    /// Level name.
+    pub name: String,
+    /// Observed values.
+    pub values: Vec<f64>,
+    /// Mean.
+    pub mean: f64,
+    /// CI bounds, if defined.
+    pub ci: Option<(f64, f64)>,
+}
+
+/// A figure request.
+#[derive(Debug, Clone)]
+pub struct Figure {
+    /// Kind.
+    pub kind: PlotKind,
+    /// Groups in display order.
+    pub groups: Vec<Group>,
+    /// x-axis label.
+    pub x_label: String,
+    /// y-axis label.
+    pub y_label: String,
+    /// Confidence level (for the legend text).
+    pub level: f64,
+}
+
+/// Deterministic jitter in [−0.5, 0.5) for observation `i` of group `g`.
+fn jitter(g: usize, i: usize) -> f64 {
+    let mut h = (g as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15) ^ (i as u64).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    h ^= h >> 31;
+    h = h.wrapping_mul(0x94D0_49BB_1331_11EB);
+    h ^= h >> 29;
+    (h % 10_000) as f64 / 10_000.0 - 0.5
+}
+
+/// Quartiles by linear interpolation between order statistics (Hyndman & Fan 1996, type 7).
+pub fn quantile(sorted: &[f64], q: f64) -> f64 {
+    let h = (sorted.len() - 1) as f64 * q;
+    let lo = h.floor() as usize;
+    let hi = h.ceil() as usize;
+    sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo])
+}
+
+/// Escapes text for an SVG text node.
+fn esc(s: &str) -> String {
+    s.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;").replace('"', "&quot;")
+}
+
+/// Draws the figure; `None` if it cannot be drawn (the answer then says so in a note).
+pub fn draw(fig: &Figure) -> Option<String> {
+    let k = fig.groups.len();
+    if k == 0 {
+        return None;
+    }
+    let mut lo = f64::INFINITY;
+    let mut hi = f64::NEG_INFINITY;
+    for g in &fig.groups {
+        for &v in &g.values {
+            lo = lo.min(v);
+            hi = hi.max(v);
+        }
+        if let Some((a, b)) = g.ci {
+            lo = lo.min(a);
+            hi = hi.max(b);
+        }
+    }
+    if !lo.is_finite() || !hi.is_finite() {
+        return None;
+    }
+    let pad = if hi > lo { (hi - lo) * 0.08 } else { lo.abs().max(1.0) * 0.1 };
+    let (lo, hi) = (lo - pad, hi + pad);
+    let names: Vec<String> = fig.groups.iter().map(|g| esc(&g.name)).collect();
+    let mut buf = String::new();
+    let width = (160 + 90 * k as u32).clamp(360, 900);
+    {
+        let root = SVGBackend::with_string(&mut buf, (width, 360)).into_drawing_area();
+        root.fill(&WHITE).ok()?;
+        let mut chart = ChartBuilder::on(&root)
+            .margin(14)
+            .x_label_area_size(44)
+            .y_label_area_size(62)
+            .build_cartesian_2d(-0.5f64..(k as f64 - 0.5), lo..hi)
+            .ok()?;
+        let fmt_x = |_: &f64| String::new();
+        let x_desc = esc(&fig.x_label);
+        let y_desc = esc(&fig.y_label);
+        chart
+            .configure_mesh()
+            .disable_x_mesh()
+            .light_line_style(RGBColor(0xee, 0xee, 0xee))
+            .x_label_formatter(&fmt_x)
+            .x_desc(x_desc.as_str())
+            .y_desc(y_desc.as_str())
+            .label_style(("sans-serif", 13))
+            .axis_desc_style(("sans-serif", 14))
+            .draw()
+            .ok()?;
+        for (gi, g) in fig.groups.iter().enumerate() {
+            let colour = PALETTE[gi % PALETTE.len()];
+            let x0 = gi as f64;
+            let spread = if fig.kind == PlotKind::Points { 0.5 } else { 0.3 };
+            let shift = if fig.kind == PlotKind::Means { -0.12 } else { 0.0 };
+            chart
+                .draw_series(g.values.iter().enumerate().map(|(i, &v)| {
+                    Circle::new((x0 + shift + spread * jitter(gi, i), v), 3, colour.mix(0.55).filled())
+                }))
+                .ok()?;
+            match fig.kind {
+                PlotKind::Means => {
+                    let xm = x0 + 0.2;
+                    if let Some((a, b)) = g.ci {
+                        let s = BLACK.stroke_width(2);
+                        chart.draw_series(std::iter::once(PathElement::new(vec![(xm, a), (xm, b)], s))).ok()?;
+                        for y in [a, b] {
+                            chart
+                                .draw_series(std::iter::once(PathElement::new(vec![(xm - 0.05, y), (xm + 0.05, y)], s)))
+                                .ok()?;
+                        }
+                    }
+                    chart
+                        .draw_series(std::iter::once(Circle::new((xm, g.mean), 5, BLACK.filled())))
+                        .ok()?;
+                }
+                PlotKind::Box => {
+                    let mut s = g.values.clone();
+                    s.sort_by(|a, b| a.total_cmp(b));
+                    if s.is_empty() {
+                        continue;
+                    }
+                    let (q1, q2, q3) = (quantile(&s, 0.25), quantile(&s, 0.5), quantile(&s, 0.75));
+                    let iqr = q3 - q1;
+                    let wl = s.iter().copied().find(|&v| v >= q1 - 1.5 * iqr).unwrap_or(q1);
+                    let wh = s.iter().rev().copied().find(|&v| v <= q3 + 1.5 * iqr).unwrap_or(q3);
+                    let st = BLACK.stroke_width(1);
+                    let (xa, xb) = (x0 - 0.25, x0 + 0.25);
+                    chart.draw_series(std::iter::once(Rectangle::new([(xa, q1), (xb, q3)], st))).ok()?;
+                    chart.draw_series(std::iter::once(PathElement::new(vec![(xa, q2), (xb, q2)], BLACK.stroke_width(2)))).ok()?;
+                    chart.draw_series(std::iter::once(PathElement::new(vec![(x0, q3), (x0, wh)], st))).ok()?;
+                    chart.draw_series(std::iter::once(PathElement::new(vec![(x0, q1), (x0, wl)], st))).ok()?;
+                }
+                PlotKind::Points => {}
+            }
+        }
+        // Level names under their groups (drawn directly: the x axis is positional).
+        let style = TextStyle::from(("sans-serif", 13).into_font()).pos(Pos::new(HPos::Center, VPos::Top));
+        for (i, n) in names.iter().enumerate() {
+            let (px, py) = chart.backend_coord(&(i as f64, lo));
+            root.draw(&Text::new(n.clone(), (px, py + 6), style.clone())).ok()?;
+        }
+        root.present().ok()?;
+    }
+    Some(buf)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn fig(kind: PlotKind, name: &str) -> Figure {
+        Figure {
+            kind,
+            groups: vec![
+                Group { name: name.into(), values: vec![1.0, 2.0, 3.0], mean: 2.0, ci: Some((0.5, 3.5)) },
+                Group { name: "b".into(), values: vec![2.0, 4.0], mean: 3.0, ci: None },
+            ],
+            x_label: "feed".into(),
+            y_label: "Weight (g)".into(),
+            level: 0.95,
+        }
+    }
+
+    #[test]
+    fn draws_every_kind_with_labels() {
+        for (_, kind) in PlotKind::ALL {
+            let s = draw(&fig(kind, "a")).unwrap();
+            assert!(s.starts_with("<svg"), "{kind:?}");
+            assert!(s.contains("Weight (g)"));
+            assert!(s.contains(">feed<") || s.contains("feed"));
+            assert_eq!(s.matches("<circle").count() >= 5, true);
+        }
+    }
+
+    #[test]
+    fn level_names_are_escaped_in_svg() {
+        let s = draw(&fig(PlotKind::Means, "<script>x</script>")).unwrap();
+        assert!(!s.contains("<script>"));
+    }
+
+    #[test]
+    fn jitter_is_deterministic_and_bounded() {
+        assert_eq!(jitter(1, 2), jitter(1, 2));
+        assert!((0..1000).all(|i| (-0.5..0.5).contains(&jitter(0, i))));
+    }
+}

@@ -1,0 +1,756 @@
+//! The session: datasets by name, the statement runner, completion and inspection.
+
+use crate::data::csv::{ReadOptions, read_file};
+use crate::data::{ColumnData, Dataset};
+use crate::design::{Plan, plural, resolve};
+use crate::error::{CellError, Span, nearest};
+use crate::help;
+use crate::lang::ast::{Analysis, ColumnRef, Name, Opt, PlotKind, StmtKind, Value, Verb};
+use crate::lang::{self, parse};
+use crate::models::describe::{CellSummary, summarise};
+use crate::models::oneway::oneway;
+use crate::render::fmt::{df, es, num, p_report, p_table, stat};
+use crate::render::svg::{Figure, Group, draw};
+use crate::render::{Align, Answer, DisplayTable, Provenance};
+use crate::{Cancel, DisplaySink, Output};
+use serde_json::{Value as Json, json};
+use std::collections::BTreeMap;
+use std::path::PathBuf;
+
+/// The caution printed under analyses.
+pub const CAUTION: &str = "A small p says the data would be surprising if the groups did not differ; it is not the size or the importance of a difference. The F test assumes independent observations, roughly normal residuals and similar spread in every group. Decisions about animals, patients or food safety follow local rules and qualified review.";
+
+/// Completion candidates for the text before the cursor.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Completion {
+    /// Candidate words.
+    pub matches: Vec<String>,
+    /// Start of the replaced text (characters).
+    pub cursor_start: usize,
+    /// End of the replaced text (characters).
+    pub cursor_end: usize,
+}
+
+/// What inspection found under the cursor.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Inspection {
+    /// Plain text.
+    pub plain: String,
+}
+
+/// A notebook session's state.
+#[derive(Debug, Default)]
+pub struct Session {
+    datasets: BTreeMap<String, Dataset>,
+    current: Option<String>,
+    base_dir: Option<PathBuf>,
+}
+
+impl Session {
+    /// An empty session; relative paths are read from the working folder.
+    pub fn new() -> Session {
+        Session::default()
+    }
+
+    /// An empty session reading relative paths from `dir` (the notebook's folder).
+    pub fn with_base_dir(dir: PathBuf) -> Session {
+        Session { base_dir: Some(dir), ..Session::default() }
+    }
+
+    /// The datasets' names.
+    pub fn dataset_names(&self) -> impl Iterator<Item = &str> {
+        self.datasets.keys().map(String::as_str)
+    }
+
+    /// Runs a cell: each statement's answer goes to `sink` as it finishes; the first error
+    /// ends the cell. A syntax error anywhere stops the cell before anything runs.
+    pub fn run_cell(&mut self, src: &str, cancel: &Cancel, sink: &mut dyn DisplaySink) -> Result<(), CellError> {
+        let stmts = parse(src)?;
+        let last = stmts.len().saturating_sub(1);
+        for (i, st) in stmts.iter().enumerate() {
+            if cancel.is_cancelled() {
+                return Err(CellError::interrupted());
+            }
+            let answer = self.run_statement(&st.kind, st.span, cancel).map_err(|e| e.at_if_none(st.span))?;
+            if let Some(a) = answer {
+                sink.display(Output { data: a.mime_bundle(), metadata: Default::default(), is_result: i == last });
+            }
+        }
+        Ok(())
+    }
+
+    fn run_statement(&mut self, st: &StmtKind, span: Span, cancel: &Cancel) -> Result<Option<Answer>, CellError> {
+        match st {
+            StmtKind::Read { path, name, options } => self.read(path, name, options).map(Some),
+            StmtKind::Show { name, options } => self.show(name, options).map(Some),
+            StmtKind::Levels { target, order } => self.levels(target, order).map(Some),
+            StmtKind::Label { target, text } => {
+                let (ds, col) = self.column_target(target)?;
+                let ds = self.datasets.get_mut(&ds).ok_or_else(|| CellError::data("dataset vanished"))?;
+                if let Some(c) = ds.column_mut(&col) {
+                    c.label = Some(text.value.clone());
+                }
+                Ok(Some(short(format!("{}.{col} is labelled \"{}\"", ds.name, text.value))))
+            }
+            StmtKind::Analysis(a) => self.analysis(a).map(Some),
+            StmtKind::Help { topic } => help_answer(topic.as_ref()).map(Some),
+            StmtKind::Pause { seconds } => {
+                let end = std::time::Instant::now() + std::time::Duration::from_secs_f64(seconds.value.clamp(0.0, 600.0));
+                while std::time::Instant::now() < end {
+                    if cancel.is_cancelled() {
+                        return Err(CellError::interrupted().at(span));
+                    }
+                    std::thread::sleep(std::time::Duration::from_millis(5));
+                }
+                Ok(Some(short(format!("paused {} s", seconds.value))))
+            }
+        }
+    }
+
+    fn dataset(&self, name: Option<&Name>) -> Result<(&Dataset, bool), CellError> {
+        match name {
+            Some(n) => self.datasets.get(&n.value).map(|d| (d, true)).ok_or_else(|| {
+                let mut e = CellError::data(format!("there is no dataset named \"{}\"", n.value)).at(n.span);
+                if self.datasets.is_empty() {
+                    e = e.note("no dataset has been read yet: start with read \"FILE.csv\" as NAME");
+                } else {
+                    e = e
+                        .suggest(nearest(&n.value, self.dataset_names()))
+                        .note(format!("datasets: {}", self.dataset_names().collect::<Vec<_>>().join(", ")));
+                }
+                e
+            }),
+            None => match self.current.as_ref().and_then(|c| self.datasets.get(c)) {
+                Some(d) => Ok((d, false)),
+                None => Err(CellError::data("no dataset has been read yet")
+                    .note("start with read \"FILE.csv\" as NAME, then name it with `in NAME`")),
+            },
+        }
+    }
+
+    fn read(&mut self, path: &crate::lang::ast::Spanned<String>, name: &Name, options: &[Opt]) -> Result<Answer, CellError> {
+        check_options(options, "read", &["factor", "missing", "delimiter", "decimal", "header"])?;
+        let mut ro = ReadOptions::new();
+        for o in options {
+            match o.name.value.as_str() {
+                "factor" => {
+                    if o.values.is_empty() {
+                        return Err(CellError::input("`factor` needs one or more column names").at(o.span));
+                    }
+                    ro.factors.extend(o.values.iter().map(|v| v.value.text()));
+                }
+                "missing" => ro.missing.extend(o.values.iter().map(|v| v.value.text())),
+                "delimiter" => {
+                    let t = one_text(o)?;
+                    ro.delimiter = Some(match t.as_str() {
+                        "," => b',',
+                        ";" => b';',
+                        "tab" | "\t" => b'\t',
+                        other => {
+                            return Err(CellError::input(format!("`delimiter {other}`: use \",\", \";\" or \"tab\"")).at(o.span));
+                        }
+                    });
+                }
+                "decimal" => match one_text(o)?.as_str() {
+                    "," => ro.decimal_comma = true,
+                    "." => ro.decimal_comma = false,
+                    other => return Err(CellError::input(format!("`decimal {other}`: use \",\" or \".\"")).at(o.span)),
+                },
+                "header" => {
+                    let n = one_number(o)?;
+                    if n < 0.0 || n.fract() != 0.0 || n > 10_000.0 {
+                        return Err(CellError::input("`header` takes a line number: 1 for the first line, 0 for no header").at(o.span));
+                    }
+                    ro.header = n as usize;
+                }
+                _ => {}
+            }
+        }
+        if ro.decimal_comma && ro.delimiter.is_none() {
+            ro.delimiter = Some(b';');
+        }
+        let full = match &self.base_dir {
+            Some(b) if !std::path::Path::new(&path.value).is_absolute() => b.join(&path.value),
+            _ => PathBuf::from(&path.value),
+        };
+        let ds = read_file(&full, &path.value, &name.value, &ro).map_err(|e| e.at_if_none(path.span))?;
+        let answer = read_answer(&ds);
+        self.current = Some(name.value.clone());
+        self.datasets.insert(name.value.clone(), ds);
+        Ok(answer)
+    }
+
+    fn show(&self, name: &Name, options: &[Opt]) -> Result<Answer, CellError> {
+        check_options(options, "show", &["rows"])?;
+        let mut rows = 10usize;
+        for o in options {
+            let n = one_number(o)?;
+            if n < 1.0 || n.fract() != 0.0 {
+                return Err(CellError::input("`rows` takes a whole number of rows, 1 or more").at(o.span));
+            }
+            rows = n as usize;
+        }
+        let (ds, _) = self.dataset(Some(name))?;
+        let shown = rows.min(ds.n_rows());
+        let mut cols = vec![("line".to_string(), Align::Right)];
+        cols.extend(ds.columns.iter().map(|c| {
+            (format!("{} ({})", c.name, c.type_name()), if c.type_name() == "numeric" { Align::Right } else { Align::Left })
+        }));
+        let trows = (0..shown)
+            .map(|i| {
+                let mut r = vec![ds.lines[i].to_string()];
+                r.extend(ds.columns.iter().map(|c| c.text(i)));
+                r
+            })
+            .collect();
+        let mut a = read_answer(ds);
+        a.command = "show".into();
+        a.plain = None;
+        a.tables.push(DisplayTable {
+            caption: format!("first {shown} of {} rows", ds.n_rows()),
+            columns: cols,
+            rows: trows,
+        });
+        Ok(a)
+    }
+
+    fn levels(&mut self, target: &ColumnRef, order: &[crate::lang::ast::Spanned<String>]) -> Result<Answer, CellError> {
+        let (dsname, colname) = self.column_target(target)?;
+        let ds = self.datasets.get_mut(&dsname).ok_or_else(|| CellError::data("dataset vanished"))?;
+        let col = ds.column_mut(&colname).ok_or_else(|| CellError::data("column vanished"))?;
+        let ColumnData::Factor(f) = &mut col.data else {
+            return Err(CellError::design(format!("\"{colname}\" is numeric; only a factor has levels to order"))
+                .at(target.column.span)
+                .note(format!("read the file `with factor {colname}` to treat its values as levels")));
+        };
+        let mut seen: Vec<String> = Vec::new();
+        for l in order {
+            if !f.levels.contains(&l.value) {
+                return Err(CellError::data(format!("\"{colname}\" has no level \"{}\"", l.value))
+                    .at(l.span)
+                    .suggest(nearest(&l.value, f.levels.iter().map(String::as_str)))
+                    .note(format!("levels: {}", f.levels.join(", "))));
+            }
+            if seen.contains(&l.value) {
+                return Err(CellError::input(format!("level \"{}\" is named twice", l.value)).at(l.span));
+            }
+            seen.push(l.value.clone());
+        }
+        f.reorder(&seen);
+        Ok(short(format!("{dsname}.{colname} levels in order: {}", f.levels.join(", "))))
+    }
+
+    fn column_target(&self, t: &ColumnRef) -> Result<(String, String), CellError> {
+        let (ds, _) = self.dataset(t.dataset.as_ref())?;
+        let col = crate::design::column(ds, &t.column, "to change")?;
+        Ok((ds.name.clone(), col.name.clone()))
+    }
+
+    fn analysis(&self, a: &Analysis) -> Result<Answer, CellError> {
+        let allowed: &[&str] = match a.verb {
+            Verb::Anova => &[],
+            Verb::Describe | Verb::Plot(_) => &["level"],
+        };
+        check_options(&a.options, a.verb.word(), allowed)?;
+        let mut level = 0.95;
+        for o in &a.options {
+            if o.name.value == "level" {
+                level = one_number(o)?;
+                if !(level > 0.0 && level < 1.0) {
+                    return Err(CellError::input("`level` is a confidence level between 0 and 1, e.g. 0.95").at(o.span));
+                }
+            }
+        }
+        let (ds, named) = self.dataset(a.dataset.as_ref())?;
+        let plan = resolve(a, ds)?;
+        let mut notes = plan.notes.clone();
+        if !named {
+            notes.insert(0, format!("dataset {} (the one read most recently); name another with `in NAME`", ds.name));
+        }
+        let cells = cells_of(&plan, level);
+        for (name, n) in &cells.empty {
+            let _ = n;
+            notes.push(format!("level {name} has no observations in the rows used and is left out"));
+        }
+        let factor_label = plan.factors.iter().map(|f| f.display_name()).collect::<Vec<_>>().join(" × ");
+        let y_label = plan.response.display_name().to_string();
+        let fig_kind = match a.verb {
+            Verb::Plot(k) => k,
+            _ => PlotKind::Means,
+        };
+        let figure = Figure {
+            kind: fig_kind,
+            groups: cells
+                .groups
+                .iter()
+                .zip(&cells.summaries)
+                .map(|((name, vals), s)| Group {
+                    name: name.clone(),
+                    values: vals.iter().map(|v| v + plan.y.offset).collect(),
+                    mean: s.mean,
+                    ci: s.ci_low.zip(s.ci_high),
+                })
+                .collect(),
+            x_label: factor_label.clone(),
+            y_label: y_label.clone(),
+            level,
+        };
+        let svg = draw(&figure);
+        if svg.is_none() {
+            notes.push("the figure could not be drawn for these values".into());
+        }
+        let provenance = Provenance {
+            dataset: ds.name.clone(),
+            source: ds.source.clone(),
+            sha256: ds.sha256.clone(),
+            rows_used: plan.rows.len(),
+            rows_dropped: plan.dropped_missing + plan.dropped_where,
+            read_at: ds.read_at.clone(),
+        };
+        let factor_names: Vec<&str> = plan.factors.iter().map(|f| f.name.as_str()).collect();
+        let design = json!({
+            "between": factor_names, "within": [], "subject": null,
+            "n": plan.rows.len(),
+            "levels": plan.factors.iter().enumerate().map(|(k, f)| (f.name.clone(), json!(plan.levels(k)))).collect::<serde_json::Map<_, _>>(),
+        });
+        let mut answer = Answer {
+            command: a.verb.word().to_string(),
+            figure: svg,
+            provenance: Some(provenance),
+            design,
+            with_bundle: true,
+            ..Default::default()
+        };
+        answer.bundle_tables.insert("cells".into(), serde_json::to_value(&cells.summaries).unwrap_or(Json::Null));
+        let cells_table = cells_display(&plan, &cells.summaries, level);
+        match a.verb {
+            Verb::Describe => {
+                answer.title = format!("{y_label} across {factor_label}: {} cells, {} observations", cells.summaries.len(), plan.rows.len());
+                answer.tables.push(cells_table);
+            }
+            Verb::Plot(k) => {
+                answer.title = format!("{y_label} across {factor_label} ({})", match k {
+                    PlotKind::Means => format!("means with {}% confidence intervals, every observation", pct(level)),
+                    PlotKind::Box => "box plots: median, quartiles, whiskers to 1.5 × IQR; every observation".into(),
+                    PlotKind::Points => "every observation".into(),
+                });
+            }
+            Verb::Anova => {
+                if plan.factors.len() != 1 {
+                    return Err(CellError::design(format!(
+                        "this version analyses one factor at a time; {} factors were given",
+                        plan.factors.len()
+                    ))
+                    .at(a.factors[1].span)
+                    .note("give one factor, e.g. `anova Y across A`; factorial designs are planned"));
+                }
+                let fname = &plan.factors[0].name;
+                let fit = oneway(fname, &cells.groups.iter().map(|(_, v)| v.clone()).collect::<Vec<_>>())
+                    .map_err(|e| e.at_if_none(a.factors[0].span))?;
+                notes.extend(fit.notes.iter().cloned());
+                let e = fit.effect();
+                answer.title = format!(
+                    "One-way ANOVA: {y_label} across {factor_label} ({} levels, {} observations)",
+                    fit.k, fit.n
+                );
+                let opt = |x: Option<f64>| x.map(num).unwrap_or_default();
+                answer.tables.push(DisplayTable {
+                    caption: "Analysis of variance (between subjects)".into(),
+                    columns: vec![
+                        ("Source".into(), Align::Left),
+                        ("df".into(), Align::Right),
+                        ("SS".into(), Align::Right),
+                        ("MS".into(), Align::Right),
+                        ("F".into(), Align::Right),
+                        ("p".into(), Align::Right),
+                        ("η²".into(), Align::Right),
+                        ("ω²".into(), Align::Right),
+                    ],
+                    rows: fit
+                        .rows
+                        .iter()
+                        .map(|r| {
+                            vec![
+                                r.effect.clone(),
+                                df(r.df),
+                                num(r.ss),
+                                opt(r.ms),
+                                r.f.map(num).unwrap_or_else(|| if r.effect == *fname { "undefined".into() } else { String::new() }),
+                                r.p.map(p_table).unwrap_or_default(),
+                                opt(r.eta2),
+                                opt(r.omega2),
+                            ]
+                        })
+                        .collect(),
+                });
+                answer.tables.push(cells_table);
+                answer.report = Some(match (e.f, e.p) {
+                    (Some(f), Some(p)) => format!(
+                        "{}: F({}, {}) = {}, {}, η² = {}, ω² = {}",
+                        fname,
+                        df(e.df),
+                        df(fit.rows[1].df),
+                        stat(f),
+                        p_report(p),
+                        es(e.eta2.unwrap_or(0.0)),
+                        es(e.omega2.unwrap_or(0.0))
+                    ),
+                    _ => format!("{fname}: F undefined (no variation within groups), η² = {}", es(e.eta2.unwrap_or(0.0))),
+                });
+                answer.caution = Some(CAUTION.into());
+                answer.bundle_tables.insert("anova".into(), serde_json::to_value(&fit.rows).unwrap_or(Json::Null));
+            }
+        }
+        answer.notes = notes;
+        Ok(answer)
+    }
+
+    /// Completion of the word before `cursor` (a character offset into `code`).
+    pub fn complete(&self, code: &str, cursor: usize) -> Completion {
+        let chars: Vec<char> = code.chars().collect();
+        let cursor = cursor.min(chars.len());
+        let mut start = cursor;
+        while start > 0 && (chars[start - 1].is_alphanumeric() || chars[start - 1] == '_') {
+            start -= 1;
+        }
+        let prefix: String = chars[start..cursor].iter().collect();
+        // The statement so far: from the last newline not continued by a comma.
+        let before: String = chars[..start].iter().collect();
+        let stmt = statement_before(&before);
+        let words: Vec<&str> = stmt.split(|c: char| !(c.is_alphanumeric() || c == '_')).filter(|w| !w.is_empty()).collect();
+        let mut cands: Vec<String> = Vec::new();
+        let verb = words.first().copied();
+        let last = words.last().copied();
+        let in_with = words.contains(&"with") && (stmt.trim_end().ends_with(',') || last == Some("with"));
+        if words.is_empty() {
+            cands.extend(lang::VERBS.iter().map(|s| s.to_string()));
+        } else if words.len() == 1 && verb == Some("plot") {
+            cands.extend(PlotKind::ALL.iter().map(|(w, _)| w.to_string()));
+        } else if verb == Some("help") && words.len() == 1 {
+            cands.extend(lang::VERBS.iter().map(|s| s.to_string()));
+        } else if in_with {
+            if let Some(h) = verb.and_then(help::verb) {
+                cands.extend(h.options.iter().map(|(o, _)| o.split_whitespace().next().unwrap_or("").to_string()));
+            }
+        } else if last == Some("in") || matches!(verb, Some("show")) && words.len() == 1 {
+            cands.extend(self.dataset_names().map(str::to_string));
+        } else {
+            let ds_name = words.windows(2).find(|w| w[0] == "in").map(|w| w[1].to_string());
+            let dotted = stmt.trim_end().strip_suffix('.').and_then(|s| s.rsplit(|c: char| !(c.is_alphanumeric() || c == '_')).next());
+            let ds = match dotted {
+                Some(d) if self.datasets.contains_key(d) && stmt.ends_with('.') => self.datasets.get(d),
+                _ => ds_name.as_ref().and_then(|n| self.datasets.get(n)).or_else(|| self.current.as_ref().and_then(|c| self.datasets.get(c))),
+            };
+            if let Some(ds) = ds {
+                cands.extend(ds.column_names().map(str::to_string));
+            }
+            if !stmt.ends_with('.') {
+                cands.extend(["across", "in", "where", "with", "and", "or"].iter().map(|s| s.to_string()));
+                if matches!(verb, Some("levels" | "label")) {
+                    cands.extend(self.dataset_names().map(str::to_string));
+                }
+            }
+        }
+        let mut matches: Vec<String> = cands.into_iter().filter(|c| c.starts_with(&prefix)).collect();
+        matches.sort();
+        matches.dedup();
+        Completion { matches, cursor_start: start, cursor_end: cursor }
+    }
+
+    /// Help or a summary for the word under `cursor` (a character offset).
+    pub fn inspect(&self, code: &str, cursor: usize) -> Option<Inspection> {
+        let chars: Vec<char> = code.chars().collect();
+        let cursor = cursor.min(chars.len());
+        let is_w = |c: char| c.is_alphanumeric() || c == '_';
+        let mut s = cursor;
+        while s > 0 && is_w(chars[s - 1]) {
+            s -= 1;
+        }
+        let mut e = cursor;
+        while e < chars.len() && is_w(chars[e]) {
+            e += 1;
+        }
+        let word: String = chars[s..e].iter().collect();
+        if word.is_empty() {
+            return None;
+        }
+        if let Some(h) = help::verb(&word) {
+            return Some(Inspection { plain: help::verb_text(h) });
+        }
+        if let Some(ds) = self.datasets.get(&word) {
+            return Some(Inspection { plain: crate::render::text::render(&read_answer(ds)) });
+        }
+        // DATASET.COLUMN or a column of the current dataset.
+        let before: String = chars[..s].iter().collect();
+        let ds = before
+            .strip_suffix('.')
+            .and_then(|b| b.rsplit(|c: char| !is_w(c)).next())
+            .and_then(|d| self.datasets.get(d))
+            .or_else(|| self.current.as_ref().and_then(|c| self.datasets.get(c)));
+        let ds = ds?;
+        let col = ds.column(&word)?;
+        Some(Inspection { plain: format!("{}.{}: {}", ds.name, col.name, column_summary(col)) })
+    }
+}
+
+fn statement_before(before: &str) -> String {
+    let mut lines: Vec<&str> = Vec::new();
+    for l in before.split('\n').rev() {
+        if !lines.is_empty() && !l.trim_end().ends_with(',') {
+            break;
+        }
+        lines.push(l);
+    }
+    lines.reverse();
+    lines.join("\n")
+}
+
+struct Cells {
+    /// (label, shifted values) per non-empty cell, in level order.
+    groups: Vec<(String, Vec<f64>)>,
+    summaries: Vec<CellSummary>,
+    /// Cells with no observations.
+    empty: Vec<(String, usize)>,
+}
+
+fn cells_of(plan: &Plan<'_>, level: f64) -> Cells {
+    let nf = plan.factors.len();
+    let sizes: Vec<usize> = (0..nf).map(|k| plan.levels(k).len()).collect();
+    let total: usize = sizes.iter().product();
+    let mut buckets: Vec<Vec<f64>> = vec![Vec::new(); total];
+    for &i in &plan.rows {
+        let mut idx = 0;
+        for k in 0..nf {
+            idx = idx * sizes[k] + plan.code(k, i) as usize;
+        }
+        buckets[idx].push(plan.y.shifted[i]);
+    }
+    let mut out = Cells { groups: Vec::new(), summaries: Vec::new(), empty: Vec::new() };
+    for (idx, vals) in buckets.into_iter().enumerate() {
+        let mut rem = idx;
+        let mut codes = vec![0usize; nf];
+        for k in (0..nf).rev() {
+            codes[k] = rem % sizes[k];
+            rem /= sizes[k];
+        }
+        let names: Vec<String> = (0..nf).map(|k| plan.levels(k)[codes[k]].clone()).collect();
+        let label = names.join(" / ");
+        if vals.is_empty() {
+            out.empty.push((label, idx));
+            continue;
+        }
+        let levels: BTreeMap<String, String> =
+            plan.factors.iter().zip(&names).map(|(f, n)| (f.name.clone(), n.clone())).collect();
+        out.summaries.push(summarise(levels, &vals, plan.y.offset, level));
+        out.groups.push((label, vals));
+    }
+    out
+}
+
+fn pct(level: f64) -> String {
+    num(level * 100.0)
+}
+
+fn cells_display(plan: &Plan<'_>, cells: &[CellSummary], level: f64) -> DisplayTable {
+    let mut columns: Vec<(String, Align)> = plan.factors.iter().map(|f| (f.display_name().to_string(), Align::Left)).collect();
+    for h in ["n", "mean", "SD", "SE"] {
+        columns.push((h.into(), Align::Right));
+    }
+    columns.push((format!("{}% CI", pct(level)), Align::Right));
+    let opt = |x: Option<f64>| x.map(num).unwrap_or_else(|| "—".into());
+    let rows = cells
+        .iter()
+        .map(|c| {
+            let mut r: Vec<String> = plan.factors.iter().map(|f| c.levels.get(&f.name).cloned().unwrap_or_default()).collect();
+            r.push(c.n.to_string());
+            r.push(num(c.mean));
+            r.push(opt(c.sd));
+            r.push(opt(c.se));
+            r.push(match (c.ci_low, c.ci_high) {
+                (Some(a), Some(b)) => format!("{} to {}", num(a), num(b)),
+                _ => "—".into(),
+            });
+            r
+        })
+        .collect();
+    DisplayTable {
+        caption: format!("{} by cell (mean ± t-based {}% confidence interval)", plan.response.display_name(), pct(level)),
+        columns,
+        rows,
+    }
+}
+
+fn column_summary(c: &crate::data::Column) -> String {
+    let miss = c.missing();
+    match &c.data {
+        ColumnData::Numeric(n) => {
+            let present: Vec<f64> = n.values.iter().copied().filter(|v| !v.is_nan()).collect();
+            let lo = present.iter().copied().fold(f64::INFINITY, f64::min);
+            let hi = present.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+            let mut s = format!("numeric, range {} to {}", num(lo), num(hi));
+            if miss > 0 {
+                s.push_str(&format!(", {miss} missing"));
+            }
+            s
+        }
+        ColumnData::Factor(f) => {
+            let shown: Vec<&str> = f.levels.iter().take(12).map(String::as_str).collect();
+            let more = if f.levels.len() > 12 { format!(", … ({} more)", f.levels.len() - 12) } else { String::new() };
+            let mut s = format!("factor, {} level{}: {}{more}", f.levels.len(), plural(f.levels.len()), shown.join(", "));
+            if miss > 0 {
+                s.push_str(&format!("; {miss} missing"));
+            }
+            s
+        }
+    }
+}
+
+fn delimiter_name(d: u8) -> &'static str {
+    match d {
+        b';' => "semicolon-separated",
+        b'\t' => "tab-separated",
+        _ => "comma-separated",
+    }
+}
+
+fn read_answer(ds: &Dataset) -> Answer {
+    let head = format!(
+        "dataset {}: {} row{} × {} column{} from {} ({})",
+        ds.name,
+        ds.n_rows(),
+        plural(ds.n_rows()),
+        ds.columns.len(),
+        plural(ds.columns.len()),
+        ds.source,
+        delimiter_name(ds.delimiter)
+    );
+    let mut plain = head.clone();
+    for c in &ds.columns {
+        plain.push_str(&format!("\n  {}: {}", c.name, column_summary(c)));
+    }
+    let cols: Vec<Json> = ds
+        .columns
+        .iter()
+        .map(|c| {
+            let levels = match &c.data {
+                ColumnData::Factor(f) => json!(f.levels),
+                ColumnData::Numeric(_) => Json::Null,
+            };
+            json!({"column": c.name, "type": c.type_name(), "missing": c.missing(), "levels": levels, "label": c.label})
+        })
+        .collect();
+    let mut bundle_tables = serde_json::Map::new();
+    bundle_tables.insert("columns".into(), Json::Array(cols));
+    Answer {
+        command: "read".into(),
+        title: head,
+        tables: vec![DisplayTable {
+            caption: String::new(),
+            columns: vec![("column".into(), Align::Left), ("type".into(), Align::Left), ("summary".into(), Align::Left)],
+            rows: ds.columns.iter().map(|c| vec![c.name.clone(), c.type_name().into(), column_summary(c)]).collect(),
+        }],
+        plain: Some(plain),
+        design: Json::Null,
+        bundle_tables,
+        provenance: Some(Provenance {
+            dataset: ds.name.clone(),
+            source: ds.source.clone(),
+            sha256: ds.sha256.clone(),
+            rows_used: ds.n_rows(),
+            rows_dropped: 0,
+            read_at: ds.read_at.clone(),
+        }),
+        with_bundle: true,
+        ..Default::default()
+    }
+}
+
+fn short(text: String) -> Answer {
+    Answer { plain: Some(text), ..Default::default() }
+}
+
+fn help_answer(topic: Option<&Name>) -> Result<Answer, CellError> {
+    match topic {
+        Some(t) => {
+            let h = help::verb(&t.value).ok_or_else(|| {
+                CellError::input(format!("there is no help for `{}`", t.value))
+                    .at(t.span)
+                    .suggest(nearest(&t.value, lang::VERBS))
+                    .note(format!("verbs: {}", lang::VERBS.join(", ")))
+            })?;
+            let text = help::verb_text(h);
+            Ok(Answer {
+                command: "help".into(),
+                title: h.usage.into(),
+                plain: Some(text),
+                tables: vec![DisplayTable {
+                    caption: String::new(),
+                    columns: vec![("option".into(), Align::Left), ("meaning".into(), Align::Left)],
+                    rows: h.options.iter().map(|(o, d)| vec![o.to_string(), d.to_string()]).collect(),
+                }]
+                .into_iter()
+                .filter(|t| !t.rows.is_empty())
+                .collect(),
+                report: None,
+                notes: vec![h.summary.to_string(), format!("example: {}", h.example)],
+                ..Default::default()
+            })
+        }
+        None => {
+            let mut plain = String::from("Partita statements (one per line; a trailing comma continues a line):\n");
+            for h in help::VERBS {
+                plain.push_str(&format!("\n  {}\n      {}\n", h.usage, h.summary));
+            }
+            plain.push_str(&format!("\n{}\n\n`help VERB` shows one verb's options and an example.", help::WHERE_HELP));
+            Ok(Answer {
+                command: "help".into(),
+                title: "Partita statements".into(),
+                tables: vec![DisplayTable {
+                    caption: "one statement per line; a trailing comma continues it".into(),
+                    columns: vec![("statement".into(), Align::Left), ("what it does".into(), Align::Left)],
+                    rows: help::VERBS.iter().map(|h| vec![h.usage.to_string(), h.summary.to_string()]).collect(),
+                }],
+                notes: vec![help::WHERE_HELP.into(), "`help VERB` shows one verb's options and an example.".into()],
+                plain: Some(plain),
+                ..Default::default()
+            })
+        }
+    }
+}
+
+fn check_options(options: &[Opt], verb: &str, allowed: &[&str]) -> Result<(), CellError> {
+    for (i, o) in options.iter().enumerate() {
+        if !allowed.contains(&o.name.value.as_str()) {
+            let mut e = CellError::input(format!("`{verb}` has no option `{}`", o.name.value)).at(o.name.span);
+            e = if allowed.is_empty() {
+                e.note(format!("`{verb}` takes no options"))
+            } else {
+                e.suggest(nearest(&o.name.value, allowed.iter().copied())).note(format!("options of `{verb}`: {}", allowed.join(", ")))
+            };
+            return Err(e);
+        }
+        if options[..i].iter().any(|p| p.name.value == o.name.value) {
+            return Err(CellError::input(format!("option `{}` is given twice", o.name.value)).at(o.name.span));
+        }
+    }
+    Ok(())
+}
+
+fn one_value(o: &Opt) -> Result<&Value, CellError> {
+    match o.values.as_slice() {
+        [v] => Ok(&v.value),
+        [] => Err(CellError::input(format!("option `{}` needs a value", o.name.value)).at(o.span)),
+        _ => Err(CellError::input(format!("option `{}` takes one value", o.name.value)).at(o.span)),
+    }
+}
+
+fn one_number(o: &Opt) -> Result<f64, CellError> {
+    match one_value(o)? {
+        Value::Num(v, _) => Ok(*v),
+        other => Err(CellError::input(format!("option `{}` takes a number, not \"{}\"", o.name.value, other.text())).at(o.span)),
+    }
+}
+
+fn one_text(o: &Opt) -> Result<String, CellError> {
+    Ok(one_value(o)?.text())
+}
