@@ -1,0 +1,232 @@
+//! The sockets and their tasks.
+//!
+//! Each socket has one owner task (the zeromq crate's send and recv take `&mut self`); the
+//! shell and control ROUTERs are split into a receiving task and a sending task fed by a
+//! channel, and IOPub has one publisher task. Shell requests run one at a time on a plain
+//! thread that owns the interpreter, so a long computation never starves the control and
+//! heartbeat tasks. After the shutdown reply the process waits 100 ms before exiting, because
+//! the zeromq crate has no linger and would drop the last messages.
+
+use crate::connection::ConnectionInfo;
+use crate::dispatch::{Channel, Control, Dispatcher, Flow, Transport, decode_or_log, is_execute};
+use crate::interp::Interpreter;
+use crate::message::Replier;
+use crate::wire::{Message, Signer};
+use bytes::Bytes;
+use std::sync::Arc;
+use std::sync::atomic::AtomicBool;
+use tokio::sync::mpsc::{UnboundedSender, unbounded_channel};
+use zeromq::{PubSocket, RepSocket, RouterSocket, Socket, SocketRecv, SocketSend, ZmqMessage};
+
+type Frames = Vec<Vec<u8>>;
+
+/// The real transport: signs, then hands frames to the socket-owner tasks.
+#[derive(Clone)]
+pub struct SocketTransport {
+    signer: Signer,
+    shell: UnboundedSender<Frames>,
+    control: UnboundedSender<Frames>,
+    iopub: UnboundedSender<Frames>,
+}
+
+impl Transport for SocketTransport {
+    fn send(&self, channel: Channel, m: Message) {
+        let frames = self.signer.encode(&m);
+        let tx = match channel {
+            Channel::Shell => &self.shell,
+            Channel::Control => &self.control,
+            Channel::IoPub => &self.iopub,
+        };
+        if tx.send(frames).is_err() {
+            eprintln!("partita: the {channel:?} socket task has stopped; a message was not sent");
+        }
+    }
+}
+
+fn to_zmq(frames: Frames) -> Option<ZmqMessage> {
+    ZmqMessage::try_from(frames.into_iter().map(Bytes::from).collect::<Vec<_>>()).ok()
+}
+
+fn from_zmq(m: ZmqMessage) -> Frames {
+    m.into_vec().into_iter().map(|b| b.to_vec()).collect()
+}
+
+/// Binds the five sockets and serves until a shutdown request.
+pub fn serve(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), String> {
+    let rt = tokio::runtime::Builder::new_multi_thread()
+        .worker_threads(2)
+        .enable_all()
+        .build()
+        .map_err(|e| format!("cannot start the runtime: {e}"))?;
+    rt.block_on(run(conn, interp))
+}
+
+async fn bind<S: Socket>(s: &mut S, conn: &ConnectionInfo, port: u16, name: &str) -> Result<(), String> {
+    let ep = conn.endpoint(port);
+    s.bind(&ep).await.map(|_| ()).map_err(|e| format!("cannot bind the {name} socket to {ep}: {e}"))
+}
+
+async fn run(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), String> {
+    let mut shell = RouterSocket::new();
+    let mut control = RouterSocket::new();
+    let mut stdin = RouterSocket::new();
+    let mut iopub = PubSocket::new();
+    let mut hb = RepSocket::new();
+    bind(&mut shell, &conn, conn.shell_port, "shell").await?;
+    bind(&mut control, &conn, conn.control_port, "control").await?;
+    bind(&mut stdin, &conn, conn.stdin_port, "stdin").await?;
+    bind(&mut iopub, &conn, conn.iopub_port, "iopub").await?;
+    bind(&mut hb, &conn, conn.hb_port, "heartbeat").await?;
+
+    let signer = Signer::new(&conn.key);
+    let (shell_tx, mut shell_rx) = unbounded_channel::<Frames>();
+    let (control_tx, mut control_rx) = unbounded_channel::<Frames>();
+    let (iopub_tx, mut iopub_rx) = unbounded_channel::<Frames>();
+    let transport = SocketTransport { signer: signer.clone(), shell: shell_tx, control: control_tx, iopub: iopub_tx };
+    let (exit_tx, mut exit_rx) = unbounded_channel::<()>();
+
+    let (mut shell_send, mut shell_recv) = shell.split();
+    let (mut control_send, mut control_recv) = control.split();
+
+    tokio::spawn(async move {
+        while let Some(f) = shell_rx.recv().await {
+            if let Some(m) = to_zmq(f) {
+                if let Err(e) = shell_send.send(m).await {
+                    eprintln!("partita: shell send failed: {e}");
+                }
+            }
+        }
+    });
+    tokio::spawn(async move {
+        while let Some(f) = control_rx.recv().await {
+            if let Some(m) = to_zmq(f) {
+                if let Err(e) = control_send.send(m).await {
+                    eprintln!("partita: control send failed: {e}");
+                }
+            }
+        }
+    });
+    tokio::spawn(async move {
+        while let Some(f) = iopub_rx.recv().await {
+            if let Some(m) = to_zmq(f) {
+                if let Err(e) = iopub.send(m).await {
+                    eprintln!("partita: iopub send failed: {e}");
+                }
+            }
+        }
+    });
+    tokio::spawn(async move {
+        loop {
+            match hb.recv().await {
+                Ok(m) => {
+                    if let Err(e) = hb.send(m).await {
+                        eprintln!("partita: heartbeat send failed: {e}");
+                    }
+                }
+                Err(e) => {
+                    eprintln!("partita: heartbeat receive failed: {e}");
+                    tokio::time::sleep(std::time::Duration::from_millis(50)).await;
+                }
+            }
+        }
+    });
+    tokio::spawn(async move {
+        // Nothing is ever asked on stdin; keep the socket drained.
+        while stdin.recv().await.is_ok() {}
+    });
+
+    let interrupt = Arc::new(AtomicBool::new(false));
+    let replier = Replier::new();
+    let dispatcher = Dispatcher::new(transport.clone(), interp, interrupt.clone(), replier.clone());
+    let control_handler = Control::new(transport.clone(), dispatcher.info(), interrupt.clone(), replier);
+
+    // SIGINT interrupts the running cell, like an interrupt_request.
+    {
+        let interrupt = interrupt.clone();
+        if let Ok(mut sig) = tokio::signal::unix::signal(tokio::signal::unix::SignalKind::interrupt()) {
+            tokio::spawn(async move {
+                while sig.recv().await.is_some() {
+                    interrupt.store(true, std::sync::atomic::Ordering::SeqCst);
+                }
+            });
+        }
+    }
+
+    // Shell requests, one at a time, on a thread of their own.
+    let (work_tx, work_rx) = std::sync::mpsc::channel::<Frames>();
+    {
+        let signer = signer.clone();
+        let exit_tx = exit_tx.clone();
+        std::thread::Builder::new()
+            .name("partita-shell".into())
+            .spawn(move || shell_loop(dispatcher, signer, work_rx, exit_tx))
+            .map_err(|e| format!("cannot start the shell thread: {e}"))?;
+    }
+    tokio::spawn(async move {
+        loop {
+            match shell_recv.recv().await {
+                Ok(m) => {
+                    if work_tx.send(from_zmq(m)).is_err() {
+                        break;
+                    }
+                }
+                Err(e) => {
+                    eprintln!("partita: shell receive failed: {e}");
+                    tokio::time::sleep(std::time::Duration::from_millis(50)).await;
+                }
+            }
+        }
+    });
+    {
+        let exit_tx = exit_tx.clone();
+        tokio::spawn(async move {
+            loop {
+                match control_recv.recv().await {
+                    Ok(m) => {
+                        let frames = from_zmq(m);
+                        if let Some(msg) = decode_or_log(&signer, &frames, "control") {
+                            if control_handler.handle(&msg) == Flow::Shutdown {
+                                let _ = exit_tx.send(());
+                            }
+                        }
+                    }
+                    Err(e) => {
+                        eprintln!("partita: control receive failed: {e}");
+                        tokio::time::sleep(std::time::Duration::from_millis(50)).await;
+                    }
+                }
+            }
+        });
+    }
+    exit_rx.recv().await;
+    tokio::time::sleep(std::time::Duration::from_millis(150)).await;
+    Ok(())
+}
+
+fn shell_loop<T: Transport>(
+    mut d: Dispatcher<T>,
+    signer: Signer,
+    rx: std::sync::mpsc::Receiver<Frames>,
+    exit_tx: UnboundedSender<()>,
+) {
+    while let Ok(frames) = rx.recv() {
+        let Some(m) = decode_or_log(&signer, &frames, "shell") else { continue };
+        if d.handle(Channel::Shell, &m) == Flow::Shutdown {
+            let _ = exit_tx.send(());
+            return;
+        }
+        if d.take_failed() {
+            // stop_on_error: abort the execute requests already queued behind the failure.
+            std::thread::sleep(std::time::Duration::from_millis(10));
+            while let Ok(f) = rx.try_recv() {
+                let Some(q) = decode_or_log(&signer, &f, "shell") else { continue };
+                if is_execute(&q) {
+                    d.abort(Channel::Shell, &q);
+                } else if d.handle(Channel::Shell, &q) == Flow::Shutdown {
+                    let _ = exit_tx.send(());
+                    return;
+                }
+            }
+        }
+    }
+}
