@@ -1,1 +1,98 @@
-fn main(){}
+//! `partita`: the Jupyter kernel, its installer, and a headless notebook runner.
+
+mod install;
+mod notebook;
+mod session;
+
+use anyhow::{Context, Result, bail};
+use clap::{Parser, Subcommand};
+use std::path::PathBuf;
+
+#[derive(Parser)]
+#[command(name = "partita", version, about = "Analysis of designed lab experiments, in Jupyter notebooks")]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Run as a Jupyter kernel (what kernel.json launches).
+    Kernel {
+        /// The connection file Jupyter wrote.
+        #[arg(long = "connection-file", short = 'f')]
+        connection_file: PathBuf,
+    },
+    /// Install the kernelspec so Jupyter offers Partita.
+    Install {
+        /// Into the user's Jupyter data folder (the default).
+        #[arg(long, conflicts_with_all = ["sys_prefix", "prefix"])]
+        user: bool,
+        /// Into the active Python environment ($VIRTUAL_ENV or $CONDA_PREFIX).
+        #[arg(long = "sys-prefix", conflicts_with = "prefix")]
+        sys_prefix: bool,
+        /// Into DIR/share/jupyter/kernels/partita.
+        #[arg(long, value_name = "DIR")]
+        prefix: Option<PathBuf>,
+    },
+    /// Execute a notebook headless and write the executed notebook and/or an HTML report.
+    Run {
+        /// The .ipynb file.
+        notebook: PathBuf,
+        /// Where to write the executed notebook.
+        #[arg(long, short = 'o')]
+        output: Option<PathBuf>,
+        /// Where to write the HTML report (default: NOTEBOOK's name with .html, in the working folder, when --output is not given).
+        #[arg(long)]
+        html: Option<PathBuf>,
+        /// Go on after a failing cell (the error is kept in the outputs).
+        #[arg(long = "keep-going")]
+        keep_going: bool,
+    },
+}
+
+fn main() {
+    if let Err(e) = real_main() {
+        eprintln!("partita: {e:#}");
+        std::process::exit(1);
+    }
+}
+
+fn real_main() -> Result<()> {
+    let cli = Cli::parse();
+    match cli.command {
+        Command::Kernel { connection_file } => {
+            let text = std::fs::read_to_string(&connection_file)
+                .with_context(|| format!("cannot read the connection file {}", connection_file.display()))?;
+            let conn = kernel::ConnectionInfo::parse(&text).map_err(anyhow::Error::msg)?;
+            kernel::serve(conn, Box::new(session::EngineInterpreter::new())).map_err(anyhow::Error::msg)
+        }
+        Command::Install { user: _, sys_prefix, prefix } => {
+            let dir = install::install(sys_prefix, prefix)?;
+            println!("installed the Partita kernelspec in {}", dir.display());
+            Ok(())
+        }
+        Command::Run { notebook, output, html, keep_going } => {
+            let html = match (&output, html) {
+                (None, None) => {
+                    let stem = notebook.file_stem().map(|s| s.to_os_string()).unwrap_or_else(|| "notebook".into());
+                    Some(PathBuf::from(stem).with_extension("html"))
+                }
+                (_, h) => h,
+            };
+            let report = notebook::run(&notebook, keep_going)?;
+            if let Some(o) = &output {
+                notebook::write_atomic(o, report.notebook_json()?.as_bytes())?;
+                println!("wrote {}", o.display());
+            }
+            if let Some(h) = &html {
+                notebook::write_atomic(h, report.html().as_bytes())?;
+                println!("wrote {}", h.display());
+            }
+            if let Some((cell, msg)) = &report.failed {
+                bail!("cell {cell} failed: {msg}");
+            }
+            Ok(())
+        }
+    }
+}

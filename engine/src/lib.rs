@@ -39,6 +39,10 @@ use std::sync::atomic::{AtomicBool, Ordering};
 pub struct Cancel(Arc<AtomicBool>);
 
 impl Cancel {
+    /// A token sharing an existing flag (the kernel's interrupt flag).
+    pub fn from_flag(flag: Arc<AtomicBool>) -> Cancel {
+        Cancel(flag)
+    }
     /// Asks the running computation to stop.
     pub fn cancel(&self) {
         self.0.store(true, Ordering::SeqCst);

@@ -98,12 +98,13 @@ pub fn parse_bytes(bytes: &[u8], shown: &str, name: &str, opts: &ReadOptions) ->
     let mut header: Option<Vec<String>> = None;
     let mut rows: Vec<Vec<String>> = Vec::new();
     let mut lines: Vec<usize> = Vec::new();
+    let mut counter = LineCounter::default();
     for rec in reader.records() {
         let rec = rec.map_err(|e| {
             let line = e.position().map(|p| line_of(body, p.byte() as usize) + skip).unwrap_or(0);
             CellError::data(format!("\"{shown}\" line {line} cannot be read as delimited text: {e}"))
         })?;
-        let line = rec.position().map(|p| line_of(body, p.byte() as usize)).unwrap_or(0) + skip;
+        let line = rec.position().map(|p| counter.line_at(body, p.byte() as usize)).unwrap_or(0) + skip;
         let mut fields: Vec<String> = rec.iter().map(str::to_string).collect();
         if fields.iter().all(|f| f.is_empty()) {
             continue;
@@ -210,6 +211,26 @@ fn line_of(text: &str, at: usize) -> usize {
     // After a CRLF the reader's position can point at the LF that ends the previous line.
     let at = if text.as_bytes().get(at) == Some(&b'\n') { at + 1 } else { at };
     text.as_bytes()[..at.min(text.len())].iter().filter(|&&b| b == b'\n').count() + 1
+}
+
+/// Line numbers of increasing byte offsets, counted incrementally (linear in the file size).
+#[derive(Default)]
+struct LineCounter {
+    at: usize,
+    newlines: usize,
+}
+
+impl LineCounter {
+    fn line_at(&mut self, text: &str, at: usize) -> usize {
+        let b = text.as_bytes();
+        let at = if b.get(at) == Some(&b'\n') { at + 1 } else { at }.min(b.len());
+        if at < self.at {
+            return line_of(text, at);
+        }
+        self.newlines += b[self.at..at].iter().filter(|&&c| c == b'\n').count();
+        self.at = at;
+        self.newlines + 1
+    }
 }
 
 enum Numeric {

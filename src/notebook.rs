@@ -1,0 +1,174 @@
+//! Headless execution of an nbformat 4 notebook with the engine directly (no Jupyter), and the
+//! standalone HTML report.
+
+use crate::session::exec_error;
+use anyhow::{Context, Result, bail};
+use engine::{Cancel, Output, Session};
+use maud::{DOCTYPE, Markup, PreEscaped, html};
+use serde_json::{Value, json};
+use std::path::Path;
+
+/// An executed notebook.
+pub struct Report {
+    nb: Value,
+    title: String,
+    /// The first failing cell (1-based among all cells) and its message, unless kept going.
+    pub failed: Option<(usize, String)>,
+}
+
+fn source_of(cell: &Value) -> String {
+    match &cell["source"] {
+        Value::String(s) => s.clone(),
+        Value::Array(a) => a.iter().filter_map(Value::as_str).collect(),
+        _ => String::new(),
+    }
+}
+
+/// Runs every code cell in order.
+pub fn run(path: &Path, keep_going: bool) -> Result<Report> {
+    let text = std::fs::read_to_string(path).with_context(|| format!("cannot read {}", path.display()))?;
+    let mut nb: Value = serde_json::from_str(&text).with_context(|| format!("{} is not a JSON notebook", path.display()))?;
+    if nb["nbformat"].as_u64() != Some(4) {
+        bail!("{} is not an nbformat 4 notebook", path.display());
+    }
+    let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
+    let base = if base.as_os_str().is_empty() { std::path::PathBuf::from(".") } else { base };
+    let mut session = Session::with_base_dir(base);
+    let cancel = Cancel::default();
+    let mut count = 0u64;
+    let mut failed = None;
+    let title = path.file_stem().and_then(|s| s.to_str()).unwrap_or("notebook").to_string();
+    let Some(cells) = nb["cells"].as_array_mut() else { bail!("{} has no cells list", path.display()) };
+    let mut stop = false;
+    for (i, cell) in cells.iter_mut().enumerate() {
+        if cell["cell_type"] != "code" {
+            continue;
+        }
+        if stop {
+            cell["outputs"] = json!([]);
+            cell["execution_count"] = Value::Null;
+            continue;
+        }
+        let src = source_of(cell);
+        count += 1;
+        let mut outs: Vec<Output> = Vec::new();
+        let result = session.run_cell(&src, &cancel, &mut outs);
+        let mut outputs: Vec<Value> = outs
+            .into_iter()
+            .map(|o| {
+                if o.is_result {
+                    json!({"output_type": "execute_result", "execution_count": count, "data": o.data, "metadata": o.metadata})
+                } else {
+                    json!({"output_type": "display_data", "data": o.data, "metadata": o.metadata})
+                }
+            })
+            .collect();
+        if let Err(e) = result {
+            let err = exec_error(&e, &src);
+            eprintln!("partita: cell {} failed: {}: {}", i + 1, err.ename, err.evalue);
+            outputs.push(json!({"output_type": "error", "ename": err.ename, "evalue": err.evalue, "traceback": err.traceback}));
+            if failed.is_none() {
+                failed = Some((i + 1, format!("{}: {}", err.ename, err.evalue)));
+            }
+            stop = !keep_going;
+        }
+        cell["outputs"] = Value::Array(outputs);
+        cell["execution_count"] = json!(count);
+    }
+    let ks = &mut nb["metadata"]["kernelspec"];
+    *ks = json!({"name": "partita", "display_name": "Partita", "language": "partita"});
+    nb["metadata"]["language_info"] = json!({"name": "partita", "version": "1", "mimetype": "text/x-partita", "file_extension": ".partita"});
+    Ok(Report { nb, title, failed: if keep_going { None } else { failed } })
+}
+
+/// Writes through a temporary file and a rename, so a reader never sees half a file.
+pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
+    let dir = path.parent().filter(|p| !p.as_os_str().is_empty()).unwrap_or(Path::new("."));
+    let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("out");
+    let tmp = dir.join(format!(".{name}.partita-tmp"));
+    std::fs::write(&tmp, bytes).with_context(|| format!("cannot write {}", tmp.display()))?;
+    std::fs::rename(&tmp, path).with_context(|| format!("cannot move {} to {}", tmp.display(), path.display()))
+}
+
+impl Report {
+    /// The executed notebook as JSON text.
+    pub fn notebook_json(&self) -> Result<String> {
+        Ok(serde_json::to_string_pretty(&self.nb)? + "\n")
+    }
+
+    /// A standalone HTML report: markdown cells rendered, code and outputs inline.
+    pub fn html(&self) -> String {
+        let cells = self.nb["cells"].as_array().cloned().unwrap_or_default();
+        let page: Markup = html! {
+            (DOCTYPE)
+            html lang="en" {
+                head {
+                    meta charset="utf-8";
+                    title { (self.title) }
+                    style { (PreEscaped(CSS)) }
+                }
+                body {
+                    main {
+                        @for c in &cells { (cell_html(c)) }
+                    }
+                    footer { "Produced by Partita " (env!("CARGO_PKG_VERSION")) " from " (self.title) ".ipynb" }
+                }
+            }
+        };
+        page.into_string()
+    }
+}
+
+const CSS: &str = "body{font-family:system-ui,sans-serif;max-width:980px;margin:24px auto;padding:0 16px;color:#222}\
+pre.src{background:#f5f6f8;border-left:3px solid #1f5f9e;padding:8px 10px;overflow-x:auto}\
+pre.err{background:#fff3f0;border-left:3px solid #b3261e;padding:8px 10px;overflow-x:auto}\
+.out{margin:6px 0 18px 0}footer{color:#777;font-size:12px;margin:30px 0}";
+
+fn markdown(src: &str) -> String {
+    let parser = pulldown_cmark::Parser::new_ext(src, pulldown_cmark::Options::ENABLE_TABLES);
+    let mut out = String::new();
+    pulldown_cmark::html::push_html(&mut out, parser);
+    out
+}
+
+fn text_of(v: &Value) -> String {
+    match v {
+        Value::String(s) => s.clone(),
+        Value::Array(a) => a.iter().filter_map(Value::as_str).collect(),
+        other => other.to_string(),
+    }
+}
+
+fn cell_html(c: &Value) -> Markup {
+    let src = source_of(c);
+    match c["cell_type"].as_str() {
+        Some("markdown") => html! { section class="md" { (PreEscaped(markdown(&src))) } },
+        Some("code") => html! {
+            section class="code" {
+                pre class="src" { (src) }
+                @for o in c["outputs"].as_array().into_iter().flatten() {
+                    div class="out" { (output_html(o)) }
+                }
+            }
+        },
+        _ => html! {},
+    }
+}
+
+fn output_html(o: &Value) -> Markup {
+    if o["output_type"] == "error" {
+        let tb: Vec<String> = o["traceback"].as_array().into_iter().flatten().filter_map(Value::as_str).map(String::from).collect();
+        return html! { pre class="err" { (tb.join("\n")) } };
+    }
+    let d = &o["data"];
+    // Partita's own HTML is produced with escaping already; it embeds the figure.
+    if let Some(h) = d.get("text/html") {
+        html! { (PreEscaped(text_of(h))) }
+    } else if let Some(s) = d.get("image/svg+xml") {
+        html! { (PreEscaped(text_of(s))) }
+    } else if let Some(t) = d.get("text/plain") {
+        html! { pre { (text_of(t)) } }
+    } else {
+        html! {}
+    }
+}
