@@ -42,7 +42,9 @@ pub fn install(sys_prefix: bool, prefix: Option<PathBuf>) -> Result<PathBuf> {
     std::fs::create_dir_all(&dir).with_context(|| format!("cannot create {}", dir.display()))?;
     let exe = std::env::current_exe().context("cannot find the partita binary's own path")?;
     let exe = exe.canonicalize().unwrap_or(exe);
-    let Some(exe_str) = exe.to_str() else { bail!("the binary's path {} is not UTF-8", exe.display()) };
+    let Some(exe_str) = exe.to_str() else {
+        bail!("the binary's path {} is not UTF-8", exe.display())
+    };
     let spec = serde_json::json!({
         "argv": [exe_str, "kernel", "--connection-file", "{connection_file}"],
         "display_name": "Partita",
@@ -50,7 +52,10 @@ pub fn install(sys_prefix: bool, prefix: Option<PathBuf>) -> Result<PathBuf> {
         "interrupt_mode": "message",
         "metadata": {},
     });
-    write(&dir.join("kernel.json"), serde_json::to_string_pretty(&spec)?.as_bytes())?;
+    write(
+        &dir.join("kernel.json"),
+        serde_json::to_string_pretty(&spec)?.as_bytes(),
+    )?;
     write(&dir.join("logo-32x32.png"), LOGO32)?;
     write(&dir.join("logo-64x64.png"), LOGO64)?;
     write(&dir.join("logo-svg.svg"), LOGOSVG)?;

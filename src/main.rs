@@ -9,7 +9,11 @@ use clap::{Parser, Subcommand};
 use std::path::PathBuf;
 
 #[derive(Parser)]
-#[command(name = "partita", version, about = "Analysis of designed lab experiments, in Jupyter notebooks")]
+#[command(
+    name = "partita",
+    version,
+    about = "Analysis of designed lab experiments, in Jupyter notebooks"
+)]
 struct Cli {
     #[command(subcommand)]
     command: Command,
@@ -62,20 +66,37 @@ fn real_main() -> Result<()> {
     let cli = Cli::parse();
     match cli.command {
         Command::Kernel { connection_file } => {
-            let text = std::fs::read_to_string(&connection_file)
-                .with_context(|| format!("cannot read the connection file {}", connection_file.display()))?;
+            let text = std::fs::read_to_string(&connection_file).with_context(|| {
+                format!(
+                    "cannot read the connection file {}",
+                    connection_file.display()
+                )
+            })?;
             let conn = kernel::ConnectionInfo::parse(&text).map_err(anyhow::Error::msg)?;
-            kernel::serve(conn, Box::new(session::EngineInterpreter::new())).map_err(anyhow::Error::msg)
+            kernel::serve(conn, Box::new(session::EngineInterpreter::new()))
+                .map_err(anyhow::Error::msg)
         }
-        Command::Install { user: _, sys_prefix, prefix } => {
+        Command::Install {
+            user: _,
+            sys_prefix,
+            prefix,
+        } => {
             let dir = install::install(sys_prefix, prefix)?;
             println!("installed the Partita kernelspec in {}", dir.display());
             Ok(())
         }
-        Command::Run { notebook, output, html, keep_going } => {
+        Command::Run {
+            notebook,
+            output,
+            html,
+            keep_going,
+        } => {
             let html = match (&output, html) {
                 (None, None) => {
-                    let stem = notebook.file_stem().map(|s| s.to_os_string()).unwrap_or_else(|| "notebook".into());
+                    let stem = notebook
+                        .file_stem()
+                        .map(|s| s.to_os_string())
+                        .unwrap_or_else(|| "notebook".into());
                     Some(PathBuf::from(stem).with_extension("html"))
                 }
                 (_, h) => h,

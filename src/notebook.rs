@@ -26,19 +26,31 @@ fn source_of(cell: &Value) -> String {
 
 /// Runs every code cell in order.
 pub fn run(path: &Path, keep_going: bool) -> Result<Report> {
-    let text = std::fs::read_to_string(path).with_context(|| format!("cannot read {}", path.display()))?;
-    let mut nb: Value = serde_json::from_str(&text).with_context(|| format!("{} is not a JSON notebook", path.display()))?;
+    let text =
+        std::fs::read_to_string(path).with_context(|| format!("cannot read {}", path.display()))?;
+    let mut nb: Value = serde_json::from_str(&text)
+        .with_context(|| format!("{} is not a JSON notebook", path.display()))?;
     if nb["nbformat"].as_u64() != Some(4) {
         bail!("{} is not an nbformat 4 notebook", path.display());
     }
     let base = path.parent().map(Path::to_path_buf).unwrap_or_default();
-    let base = if base.as_os_str().is_empty() { std::path::PathBuf::from(".") } else { base };
+    let base = if base.as_os_str().is_empty() {
+        std::path::PathBuf::from(".")
+    } else {
+        base
+    };
     let mut session = Session::with_base_dir(base);
     let cancel = Cancel::default();
     let mut count = 0u64;
     let mut failed = None;
-    let title = path.file_stem().and_then(|s| s.to_str()).unwrap_or("notebook").to_string();
-    let Some(cells) = nb["cells"].as_array_mut() else { bail!("{} has no cells list", path.display()) };
+    let title = path
+        .file_stem()
+        .and_then(|s| s.to_str())
+        .unwrap_or("notebook")
+        .to_string();
+    let Some(cells) = nb["cells"].as_array_mut() else {
+        bail!("{} has no cells list", path.display())
+    };
     let mut stop = false;
     for (i, cell) in cells.iter_mut().enumerate() {
         if cell["cell_type"] != "code" {
@@ -65,7 +77,12 @@ pub fn run(path: &Path, keep_going: bool) -> Result<Report> {
             .collect();
         if let Err(e) = result {
             let err = exec_error(&e, &src);
-            eprintln!("partita: cell {} failed: {}: {}", i + 1, err.ename, err.evalue);
+            eprintln!(
+                "partita: cell {} failed: {}: {}",
+                i + 1,
+                err.ename,
+                err.evalue
+            );
             outputs.push(json!({"output_type": "error", "ename": err.ename, "evalue": err.evalue, "traceback": err.traceback}));
             if failed.is_none() {
                 failed = Some((i + 1, format!("{}: {}", err.ename, err.evalue)));
@@ -78,16 +95,24 @@ pub fn run(path: &Path, keep_going: bool) -> Result<Report> {
     let ks = &mut nb["metadata"]["kernelspec"];
     *ks = json!({"name": "partita", "display_name": "Partita", "language": "partita"});
     nb["metadata"]["language_info"] = json!({"name": "partita", "version": "1", "mimetype": "text/x-partita", "file_extension": ".partita"});
-    Ok(Report { nb, title, failed: if keep_going { None } else { failed } })
+    Ok(Report {
+        nb,
+        title,
+        failed: if keep_going { None } else { failed },
+    })
 }
 
 /// Writes through a temporary file and a rename, so a reader never sees half a file.
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
-    let dir = path.parent().filter(|p| !p.as_os_str().is_empty()).unwrap_or(Path::new("."));
+    let dir = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
     let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("out");
     let tmp = dir.join(format!(".{name}.partita-tmp"));
     std::fs::write(&tmp, bytes).with_context(|| format!("cannot write {}", tmp.display()))?;
-    std::fs::rename(&tmp, path).with_context(|| format!("cannot move {} to {}", tmp.display(), path.display()))
+    std::fs::rename(&tmp, path)
+        .with_context(|| format!("cannot move {} to {}", tmp.display(), path.display()))
 }
 
 impl Report {
@@ -157,7 +182,13 @@ fn cell_html(c: &Value) -> Markup {
 
 fn output_html(o: &Value) -> Markup {
     if o["output_type"] == "error" {
-        let tb: Vec<String> = o["traceback"].as_array().into_iter().flatten().filter_map(Value::as_str).map(String::from).collect();
+        let tb: Vec<String> = o["traceback"]
+            .as_array()
+            .into_iter()
+            .flatten()
+            .filter_map(Value::as_str)
+            .map(String::from)
+            .collect();
         return html! { pre class="err" { (tb.join("\n")) } };
     }
     let d = &o["data"];

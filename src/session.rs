@@ -14,7 +14,9 @@ pub struct EngineInterpreter {
 
 impl EngineInterpreter {
     pub fn new() -> EngineInterpreter {
-        EngineInterpreter { session: Session::new() }
+        EngineInterpreter {
+            session: Session::new(),
+        }
     }
 }
 
@@ -22,24 +24,43 @@ struct Forward<'a>(&'a mut dyn FnMut(DisplayOut));
 
 impl DisplaySink for Forward<'_> {
     fn display(&mut self, o: Output) {
-        (self.0)(DisplayOut { data: o.data, metadata: o.metadata, is_result: o.is_result });
+        (self.0)(DisplayOut {
+            data: o.data,
+            metadata: o.metadata,
+            is_result: o.is_result,
+        });
     }
 }
 
 /// Converts an engine error into the protocol's error fields.
 pub fn exec_error(e: &engine::CellError, code: &str) -> ExecError {
-    ExecError { ename: e.kind.name().into(), evalue: evalue(e, code), traceback: traceback(e, code) }
+    ExecError {
+        ename: e.kind.name().into(),
+        evalue: evalue(e, code),
+        traceback: traceback(e, code),
+    }
 }
 
 impl Interpreter for EngineInterpreter {
-    fn execute(&mut self, code: &str, interrupt: &Arc<AtomicBool>, out: &mut dyn FnMut(DisplayOut)) -> Result<(), ExecError> {
+    fn execute(
+        &mut self,
+        code: &str,
+        interrupt: &Arc<AtomicBool>,
+        out: &mut dyn FnMut(DisplayOut),
+    ) -> Result<(), ExecError> {
         let cancel = Cancel::from_flag(interrupt.clone());
-        self.session.run_cell(code, &cancel, &mut Forward(out)).map_err(|e| exec_error(&e, code))
+        self.session
+            .run_cell(code, &cancel, &mut Forward(out))
+            .map_err(|e| exec_error(&e, code))
     }
 
     fn complete(&mut self, code: &str, cursor: usize) -> Completions {
         let c = self.session.complete(code, cursor);
-        Completions { matches: c.matches, cursor_start: c.cursor_start, cursor_end: c.cursor_end }
+        Completions {
+            matches: c.matches,
+            cursor_start: c.cursor_start,
+            cursor_end: c.cursor_end,
+        }
     }
 
     fn inspect(&mut self, code: &str, cursor: usize) -> Option<Map<String, Value>> {

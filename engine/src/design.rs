@@ -49,10 +49,16 @@ impl Plan<'_> {
 /// Finds column `name` or says which columns there are.
 pub fn column<'a>(ds: &'a Dataset, name: &Name, role: &str) -> Result<&'a Column, CellError> {
     ds.column(&name.value).ok_or_else(|| {
-        CellError::data(format!("dataset {} has no column \"{}\" ({role})", ds.name, name.value))
-            .at(name.span)
-            .suggest(nearest(&name.value, ds.column_names()))
-            .note(format!("columns: {}", ds.column_names().collect::<Vec<_>>().join(", ")))
+        CellError::data(format!(
+            "dataset {} has no column \"{}\" ({role})",
+            ds.name, name.value
+        ))
+        .at(name.span)
+        .suggest(nearest(&name.value, ds.column_names()))
+        .note(format!(
+            "columns: {}",
+            ds.column_names().collect::<Vec<_>>().join(", ")
+        ))
     })
 }
 
@@ -66,8 +72,9 @@ pub fn resolve<'a>(a: &Analysis, ds: &'a Dataset) -> Result<Plan<'a>, CellError>
                 let text = f.levels.get(c as usize)?;
                 text.parse::<f64>().is_err().then(|| (i, text.clone()))
             });
-            let mut e = CellError::data(format!("the response \"{}\" is not numeric", response.name))
-                .at(a.response.span);
+            let mut e =
+                CellError::data(format!("the response \"{}\" is not numeric", response.name))
+                    .at(a.response.span);
             if let Some((i, text)) = first {
                 e = e.note(format!(
                     "its first non-numeric value is \"{text}\" on line {} of {}",
@@ -78,8 +85,10 @@ pub fn resolve<'a>(a: &Analysis, ds: &'a Dataset) -> Result<Plan<'a>, CellError>
         }
     };
     if a.subject.is_some() {
-        return Err(CellError::design("repeated-measures designs (`subject`) are not available in this version yet")
-            .at(a.subject.as_ref().map(|s| s.span).unwrap_or(a.verb_span)));
+        return Err(CellError::design(
+            "repeated-measures designs (`subject`) are not available in this version yet",
+        )
+        .at(a.subject.as_ref().map(|s| s.span).unwrap_or(a.verb_span)));
     }
     let mut factors = Vec::new();
     for f in &a.factors {
@@ -90,7 +99,10 @@ pub fn resolve<'a>(a: &Analysis, ds: &'a Dataset) -> Result<Plan<'a>, CellError>
                 col.name
             ))
             .at(f.span)
-            .note(format!("to use numeric codes as levels, read the file `with factor {}`", col.name)));
+            .note(format!(
+                "to use numeric codes as levels, read the file `with factor {}`",
+                col.name
+            )));
         }
         if col.name == response.name {
             return Err(CellError::design("the response cannot also be a factor").at(f.span));
@@ -113,7 +125,9 @@ pub fn resolve<'a>(a: &Analysis, ds: &'a Dataset) -> Result<Plan<'a>, CellError>
             continue;
         }
         let miss = y.values[i].is_nan()
-            || factors.iter().any(|c| matches!(&c.data, ColumnData::Factor(f) if f.codes[i] == MISSING));
+            || factors
+                .iter()
+                .any(|c| matches!(&c.data, ColumnData::Factor(f) if f.codes[i] == MISSING));
         if miss {
             missing_lines.push(ds.lines[i]);
         } else {
@@ -122,7 +136,11 @@ pub fn resolve<'a>(a: &Analysis, ds: &'a Dataset) -> Result<Plan<'a>, CellError>
     }
     let mut notes = Vec::new();
     if dropped_where > 0 {
-        notes.push(format!("where kept {} of {} rows", ds.n_rows() - dropped_where, ds.n_rows()));
+        notes.push(format!(
+            "where kept {} of {} rows",
+            ds.n_rows() - dropped_where,
+            ds.n_rows()
+        ));
     }
     if !missing_lines.is_empty() {
         notes.push(format!(
@@ -134,10 +152,23 @@ pub fn resolve<'a>(a: &Analysis, ds: &'a Dataset) -> Result<Plan<'a>, CellError>
         ));
     }
     if rows.is_empty() {
-        let why = if dropped_where == ds.n_rows() { "the where clause keeps no rows" } else { "no rows have both the response and the factors present" };
+        let why = if dropped_where == ds.n_rows() {
+            "the where clause keeps no rows"
+        } else {
+            "no rows have both the response and the factors present"
+        };
         return Err(CellError::data(format!("{why}: there is nothing to analyse")).at(a.verb_span));
     }
-    Ok(Plan { dataset: ds, response, y, factors, rows, dropped_missing: missing_lines.len(), dropped_where, notes })
+    Ok(Plan {
+        dataset: ds,
+        response,
+        y,
+        factors,
+        rows,
+        dropped_missing: missing_lines.len(),
+        dropped_where,
+        notes,
+    })
 }
 
 /// "s" for counts other than one.
@@ -147,7 +178,11 @@ pub fn plural(n: usize) -> &'static str {
 
 fn list_lines(lines: &[usize]) -> String {
     let shown: Vec<String> = lines.iter().take(10).map(|l| l.to_string()).collect();
-    if lines.len() > 10 { format!("{}, … ({} more)", shown.join(", "), lines.len() - 10) } else { shown.join(", ") }
+    if lines.len() > 10 {
+        format!("{}, … ({} more)", shown.join(", "), lines.len() - 10)
+    } else {
+        shown.join(", ")
+    }
 }
 
 fn eval(e: &Expr, ds: &Dataset, mask: &mut [bool]) -> Result<(), CellError> {
@@ -167,17 +202,29 @@ fn eval(e: &Expr, ds: &Dataset, mask: &mut [bool]) -> Result<(), CellError> {
                 *a = *a && (m1[i] || m2[i]);
             }
         }
-        Expr::Compare { column: name, op, value } => {
+        Expr::Compare {
+            column: name,
+            op,
+            value,
+        } => {
             let col = column(ds, name, "in where")?;
             match &col.data {
                 ColumnData::Numeric(n) => {
                     let v = match &value.value {
                         Value::Num(v, _) => *v,
                         Value::Str(s) => s.parse::<f64>().map_err(|_| {
-                            CellError::data(format!("\"{}\" is numeric, so it cannot be compared with the text \"{s}\"", col.name))
-                                .at(value.span)
+                            CellError::data(format!(
+                                "\"{}\" is numeric, so it cannot be compared with the text \"{s}\"",
+                                col.name
+                            ))
+                            .at(value.span)
                         })?,
-                        Value::Word(w) => return Err(CellError::syntax(value.span, format!("`{w}` is not a value"))),
+                        Value::Word(w) => {
+                            return Err(CellError::syntax(
+                                value.span,
+                                format!("`{w}` is not a value"),
+                            ));
+                        }
                     };
                     for (i, m) in mask.iter_mut().enumerate() {
                         let x = n.values[i];
@@ -210,7 +257,10 @@ fn eval(e: &Expr, ds: &Dataset, mask: &mut [bool]) -> Result<(), CellError> {
                 }
             }
         }
-        Expr::In { column: name, values } => {
+        Expr::In {
+            column: name,
+            values,
+        } => {
             let col = column(ds, name, "in where")?;
             match &col.data {
                 ColumnData::Factor(f) => {
@@ -247,11 +297,20 @@ fn eval(e: &Expr, ds: &Dataset, mask: &mut [bool]) -> Result<(), CellError> {
     Ok(())
 }
 
-fn level_code(col: &Column, levels: &[String], text: &str, span: crate::error::Span) -> Result<u32, CellError> {
-    levels.iter().position(|l| l == text).map(|p| p as u32).ok_or_else(|| {
-        CellError::data(format!("\"{}\" has no level \"{text}\"", col.name))
-            .at(span)
-            .suggest(nearest(text, levels.iter().map(String::as_str)))
-            .note(format!("levels: {}", levels.join(", ")))
-    })
+fn level_code(
+    col: &Column,
+    levels: &[String],
+    text: &str,
+    span: crate::error::Span,
+) -> Result<u32, CellError> {
+    levels
+        .iter()
+        .position(|l| l == text)
+        .map(|p| p as u32)
+        .ok_or_else(|| {
+            CellError::data(format!("\"{}\" has no level \"{text}\"", col.name))
+                .at(span)
+                .suggest(nearest(text, levels.iter().map(String::as_str)))
+                .note(format!("levels: {}", levels.join(", ")))
+        })
 }

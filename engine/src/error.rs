@@ -23,7 +23,10 @@ impl Span {
     }
     /// The smallest span covering both.
     pub fn to(self, other: Span) -> Span {
-        Span { start: self.start.min(other.start), end: self.end.max(other.end) }
+        Span {
+            start: self.start.min(other.start),
+            end: self.end.max(other.end),
+        }
     }
 }
 
@@ -74,7 +77,13 @@ pub struct CellError {
 impl CellError {
     /// A new error of `kind` with `message`.
     pub fn new(kind: ErrorKind, message: impl Into<String>) -> CellError {
-        CellError { kind, message: message.into(), span: None, notes: Vec::new(), suggestion: None }
+        CellError {
+            kind,
+            message: message.into(),
+            span: None,
+            notes: Vec::new(),
+            suggestion: None,
+        }
     }
     /// A syntax error at `span`.
     pub fn syntax(span: Span, message: impl Into<String>) -> CellError {
@@ -94,7 +103,10 @@ impl CellError {
     }
     /// The interruption error.
     pub fn interrupted() -> CellError {
-        CellError::new(ErrorKind::Interrupted, "the computation was interrupted; nothing was kept")
+        CellError::new(
+            ErrorKind::Interrupted,
+            "the computation was interrupted; nothing was kept",
+        )
     }
     /// Attaches a span.
     pub fn at(mut self, span: Span) -> CellError {
@@ -177,7 +189,9 @@ pub fn edit_distance(a: &str, b: &str) -> usize {
     for i in 1..=a.len() {
         for j in 1..=b.len() {
             let cost = usize::from(a[i - 1] != b[j - 1]);
-            let mut v = (d[i - 1][j] + 1).min(d[i][j - 1] + 1).min(d[i - 1][j - 1] + cost);
+            let mut v = (d[i - 1][j] + 1)
+                .min(d[i][j - 1] + 1)
+                .min(d[i - 1][j - 1] + cost);
             if i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1] {
                 v = v.min(d[i - 2][j - 2] + 1);
             }
@@ -199,7 +213,10 @@ mod tests {
 
     #[test]
     fn nearest_finds_typos_and_refuses_strangers() {
-        assert_eq!(nearest("anvoa", ["anova", "read", "show"]), Some("anova".into()));
+        assert_eq!(
+            nearest("anvoa", ["anova", "read", "show"]),
+            Some("anova".into())
+        );
         assert_eq!(nearest("wieght", ["weight", "feed"]), Some("weight".into()));
         assert_eq!(nearest("zzzzzz", ["anova", "read"]), None);
         assert_eq!(nearest("anova", ["anova"]), None);

@@ -22,11 +22,23 @@ pub const VERBS: &[VerbHelp] = &[
         usage: "read \"PATH\" as NAME [with OPTION VALUE, …]",
         summary: "Loads a CSV, TSV or semicolon-separated file as dataset NAME. The separator is detected from the header line; numeric and factor columns are detected from the values.",
         options: &[
-            ("factor C1 C2 …", "treat these numeric columns as factor levels (dose codes, blocks)"),
-            ("missing \"X\"", "also treat X as a missing value (empty, NA and . always are)"),
-            ("delimiter \";\"", "the field separator: \",\", \";\" or \"tab\""),
+            (
+                "factor C1 C2 …",
+                "treat these numeric columns as factor levels (dose codes, blocks)",
+            ),
+            (
+                "missing \"X\"",
+                "also treat X as a missing value (empty, NA and . always are)",
+            ),
+            (
+                "delimiter \";\"",
+                "the field separator: \",\", \";\" or \"tab\"",
+            ),
             ("decimal \",\"", "numbers are written with a decimal comma"),
-            ("header N", "the header is on line N (lines above it are skipped); 0 for no header"),
+            (
+                "header N",
+                "the header is on line N (lines above it are skipped); 0 for no header",
+            ),
         ],
         example: "read \"data/feeding.csv\" as trial with factor pen",
     },
@@ -55,7 +67,10 @@ pub const VERBS: &[VerbHelp] = &[
         verb: "describe",
         usage: "describe Y across F [in NAME] [where CONDITION] [with level L]",
         summary: "Per level of F: n, mean, SD, SE and a confidence interval of the mean, with a figure of the means and every observation.",
-        options: &[("level L", "confidence level of the intervals (default 0.95)")],
+        options: &[(
+            "level L",
+            "confidence level of the intervals (default 0.95)",
+        )],
         example: "describe gain across feed in trial",
     },
     VerbHelp {
@@ -69,7 +84,10 @@ pub const VERBS: &[VerbHelp] = &[
         verb: "plot",
         usage: "plot KIND Y across F [in NAME] [where CONDITION]",
         summary: "A figure of Y across F. KIND: means (means with 95% CIs beside every observation), box (box plots with every observation), points (every observation).",
-        options: &[("level L", "confidence level of the intervals in `means` (default 0.95)")],
+        options: &[(
+            "level L",
+            "confidence level of the intervals in `means` (default 0.95)",
+        )],
         example: "plot box gain across feed",
     },
     VerbHelp {

@@ -54,7 +54,10 @@ impl Session {
 
     /// An empty session reading relative paths from `dir` (the notebook's folder).
     pub fn with_base_dir(dir: PathBuf) -> Session {
-        Session { base_dir: Some(dir), ..Session::default() }
+        Session {
+            base_dir: Some(dir),
+            ..Session::default()
+        }
     }
 
     /// The datasets' names.
@@ -64,38 +67,65 @@ impl Session {
 
     /// Runs a cell: each statement's answer goes to `sink` as it finishes; the first error
     /// ends the cell. A syntax error anywhere stops the cell before anything runs.
-    pub fn run_cell(&mut self, src: &str, cancel: &Cancel, sink: &mut dyn DisplaySink) -> Result<(), CellError> {
+    pub fn run_cell(
+        &mut self,
+        src: &str,
+        cancel: &Cancel,
+        sink: &mut dyn DisplaySink,
+    ) -> Result<(), CellError> {
         let stmts = parse(src)?;
         let last = stmts.len().saturating_sub(1);
         for (i, st) in stmts.iter().enumerate() {
             if cancel.is_cancelled() {
                 return Err(CellError::interrupted());
             }
-            let answer = self.run_statement(&st.kind, st.span, cancel).map_err(|e| e.at_if_none(st.span))?;
+            let answer = self
+                .run_statement(&st.kind, st.span, cancel)
+                .map_err(|e| e.at_if_none(st.span))?;
             if let Some(a) = answer {
-                sink.display(Output { data: a.mime_bundle(), metadata: Default::default(), is_result: i == last });
+                sink.display(Output {
+                    data: a.mime_bundle(),
+                    metadata: Default::default(),
+                    is_result: i == last,
+                });
             }
         }
         Ok(())
     }
 
-    fn run_statement(&mut self, st: &StmtKind, span: Span, cancel: &Cancel) -> Result<Option<Answer>, CellError> {
+    fn run_statement(
+        &mut self,
+        st: &StmtKind,
+        span: Span,
+        cancel: &Cancel,
+    ) -> Result<Option<Answer>, CellError> {
         match st {
-            StmtKind::Read { path, name, options } => self.read(path, name, options).map(Some),
+            StmtKind::Read {
+                path,
+                name,
+                options,
+            } => self.read(path, name, options).map(Some),
             StmtKind::Show { name, options } => self.show(name, options).map(Some),
             StmtKind::Levels { target, order } => self.levels(target, order).map(Some),
             StmtKind::Label { target, text } => {
                 let (ds, col) = self.column_target(target)?;
-                let ds = self.datasets.get_mut(&ds).ok_or_else(|| CellError::data("dataset vanished"))?;
+                let ds = self
+                    .datasets
+                    .get_mut(&ds)
+                    .ok_or_else(|| CellError::data("dataset vanished"))?;
                 if let Some(c) = ds.column_mut(&col) {
                     c.label = Some(text.value.clone());
                 }
-                Ok(Some(short(format!("{}.{col} is labelled \"{}\"", ds.name, text.value))))
+                Ok(Some(short(format!(
+                    "{}.{col} is labelled \"{}\"",
+                    ds.name, text.value
+                ))))
             }
             StmtKind::Analysis(a) => self.analysis(a).map(Some),
             StmtKind::Help { topic } => help_answer(topic.as_ref()).map(Some),
             StmtKind::Pause { seconds } => {
-                let end = std::time::Instant::now() + std::time::Duration::from_secs_f64(seconds.value.clamp(0.0, 600.0));
+                let end = std::time::Instant::now()
+                    + std::time::Duration::from_secs_f64(seconds.value.clamp(0.0, 600.0));
                 while std::time::Instant::now() < end {
                     if cancel.is_cancelled() {
                         return Err(CellError::interrupted().at(span));
@@ -109,17 +139,28 @@ impl Session {
 
     fn dataset(&self, name: Option<&Name>) -> Result<(&Dataset, bool), CellError> {
         match name {
-            Some(n) => self.datasets.get(&n.value).map(|d| (d, true)).ok_or_else(|| {
-                let mut e = CellError::data(format!("there is no dataset named \"{}\"", n.value)).at(n.span);
-                if self.datasets.is_empty() {
-                    e = e.note("no dataset has been read yet: start with read \"FILE.csv\" as NAME");
-                } else {
-                    e = e
-                        .suggest(nearest(&n.value, self.dataset_names()))
-                        .note(format!("datasets: {}", self.dataset_names().collect::<Vec<_>>().join(", ")));
-                }
-                e
-            }),
+            Some(n) => self
+                .datasets
+                .get(&n.value)
+                .map(|d| (d, true))
+                .ok_or_else(|| {
+                    let mut e =
+                        CellError::data(format!("there is no dataset named \"{}\"", n.value))
+                            .at(n.span);
+                    if self.datasets.is_empty() {
+                        e = e.note(
+                            "no dataset has been read yet: start with read \"FILE.csv\" as NAME",
+                        );
+                    } else {
+                        e = e
+                            .suggest(nearest(&n.value, self.dataset_names()))
+                            .note(format!(
+                                "datasets: {}",
+                                self.dataset_names().collect::<Vec<_>>().join(", ")
+                            ));
+                    }
+                    e
+                }),
             None => match self.current.as_ref().and_then(|c| self.datasets.get(c)) {
                 Some(d) => Ok((d, false)),
                 None => Err(CellError::data("no dataset has been read yet")
@@ -128,14 +169,25 @@ impl Session {
         }
     }
 
-    fn read(&mut self, path: &crate::lang::ast::Spanned<String>, name: &Name, options: &[Opt]) -> Result<Answer, CellError> {
-        check_options(options, "read", &["factor", "missing", "delimiter", "decimal", "header"])?;
+    fn read(
+        &mut self,
+        path: &crate::lang::ast::Spanned<String>,
+        name: &Name,
+        options: &[Opt],
+    ) -> Result<Answer, CellError> {
+        check_options(
+            options,
+            "read",
+            &["factor", "missing", "delimiter", "decimal", "header"],
+        )?;
         let mut ro = ReadOptions::new();
         for o in options {
             match o.name.value.as_str() {
                 "factor" => {
                     if o.values.is_empty() {
-                        return Err(CellError::input("`factor` needs one or more column names").at(o.span));
+                        return Err(
+                            CellError::input("`factor` needs one or more column names").at(o.span)
+                        );
                     }
                     ro.factors.extend(o.values.iter().map(|v| v.value.text()));
                 }
@@ -147,19 +199,30 @@ impl Session {
                         ";" => b';',
                         "tab" | "\t" => b'\t',
                         other => {
-                            return Err(CellError::input(format!("`delimiter {other}`: use \",\", \";\" or \"tab\"")).at(o.span));
+                            return Err(CellError::input(format!(
+                                "`delimiter {other}`: use \",\", \";\" or \"tab\""
+                            ))
+                            .at(o.span));
                         }
                     });
                 }
                 "decimal" => match one_text(o)?.as_str() {
                     "," => ro.decimal_comma = true,
                     "." => ro.decimal_comma = false,
-                    other => return Err(CellError::input(format!("`decimal {other}`: use \",\" or \".\"")).at(o.span)),
+                    other => {
+                        return Err(CellError::input(format!(
+                            "`decimal {other}`: use \",\" or \".\""
+                        ))
+                        .at(o.span));
+                    }
                 },
                 "header" => {
                     let n = one_number(o)?;
                     if n < 0.0 || n.fract() != 0.0 || n > 10_000.0 {
-                        return Err(CellError::input("`header` takes a line number: 1 for the first line, 0 for no header").at(o.span));
+                        return Err(CellError::input(
+                            "`header` takes a line number: 1 for the first line, 0 for no header",
+                        )
+                        .at(o.span));
                     }
                     ro.header = n as usize;
                 }
@@ -173,7 +236,8 @@ impl Session {
             Some(b) if !std::path::Path::new(&path.value).is_absolute() => b.join(&path.value),
             _ => PathBuf::from(&path.value),
         };
-        let ds = read_file(&full, &path.value, &name.value, &ro).map_err(|e| e.at_if_none(path.span))?;
+        let ds =
+            read_file(&full, &path.value, &name.value, &ro).map_err(|e| e.at_if_none(path.span))?;
         let answer = read_answer(&ds);
         self.current = Some(name.value.clone());
         self.datasets.insert(name.value.clone(), ds);
@@ -186,7 +250,9 @@ impl Session {
         for o in options {
             let n = one_number(o)?;
             if n < 1.0 || n.fract() != 0.0 {
-                return Err(CellError::input("`rows` takes a whole number of rows, 1 or more").at(o.span));
+                return Err(
+                    CellError::input("`rows` takes a whole number of rows, 1 or more").at(o.span),
+                );
             }
             rows = n as usize;
         }
@@ -194,7 +260,14 @@ impl Session {
         let shown = rows.min(ds.n_rows());
         let mut cols = vec![("line".to_string(), Align::Right)];
         cols.extend(ds.columns.iter().map(|c| {
-            (format!("{} ({})", c.name, c.type_name()), if c.type_name() == "numeric" { Align::Right } else { Align::Left })
+            (
+                format!("{} ({})", c.name, c.type_name()),
+                if c.type_name() == "numeric" {
+                    Align::Right
+                } else {
+                    Align::Left
+                },
+            )
         }));
         let trows = (0..shown)
             .map(|i| {
@@ -214,30 +287,50 @@ impl Session {
         Ok(a)
     }
 
-    fn levels(&mut self, target: &ColumnRef, order: &[crate::lang::ast::Spanned<String>]) -> Result<Answer, CellError> {
+    fn levels(
+        &mut self,
+        target: &ColumnRef,
+        order: &[crate::lang::ast::Spanned<String>],
+    ) -> Result<Answer, CellError> {
         let (dsname, colname) = self.column_target(target)?;
-        let ds = self.datasets.get_mut(&dsname).ok_or_else(|| CellError::data("dataset vanished"))?;
-        let col = ds.column_mut(&colname).ok_or_else(|| CellError::data("column vanished"))?;
+        let ds = self
+            .datasets
+            .get_mut(&dsname)
+            .ok_or_else(|| CellError::data("dataset vanished"))?;
+        let col = ds
+            .column_mut(&colname)
+            .ok_or_else(|| CellError::data("column vanished"))?;
         let ColumnData::Factor(f) = &mut col.data else {
-            return Err(CellError::design(format!("\"{colname}\" is numeric; only a factor has levels to order"))
-                .at(target.column.span)
-                .note(format!("read the file `with factor {colname}` to treat its values as levels")));
+            return Err(CellError::design(format!(
+                "\"{colname}\" is numeric; only a factor has levels to order"
+            ))
+            .at(target.column.span)
+            .note(format!(
+                "read the file `with factor {colname}` to treat its values as levels"
+            )));
         };
         let mut seen: Vec<String> = Vec::new();
         for l in order {
             if !f.levels.contains(&l.value) {
-                return Err(CellError::data(format!("\"{colname}\" has no level \"{}\"", l.value))
-                    .at(l.span)
-                    .suggest(nearest(&l.value, f.levels.iter().map(String::as_str)))
-                    .note(format!("levels: {}", f.levels.join(", "))));
+                return Err(
+                    CellError::data(format!("\"{colname}\" has no level \"{}\"", l.value))
+                        .at(l.span)
+                        .suggest(nearest(&l.value, f.levels.iter().map(String::as_str)))
+                        .note(format!("levels: {}", f.levels.join(", "))),
+                );
             }
             if seen.contains(&l.value) {
-                return Err(CellError::input(format!("level \"{}\" is named twice", l.value)).at(l.span));
+                return Err(
+                    CellError::input(format!("level \"{}\" is named twice", l.value)).at(l.span),
+                );
             }
             seen.push(l.value.clone());
         }
         f.reorder(&seen);
-        Ok(short(format!("{dsname}.{colname} levels in order: {}", f.levels.join(", "))))
+        Ok(short(format!(
+            "{dsname}.{colname} levels in order: {}",
+            f.levels.join(", ")
+        )))
     }
 
     fn column_target(&self, t: &ColumnRef) -> Result<(String, String), CellError> {
@@ -257,7 +350,10 @@ impl Session {
             if o.name.value == "level" {
                 level = one_number(o)?;
                 if !(level > 0.0 && level < 1.0) {
-                    return Err(CellError::input("`level` is a confidence level between 0 and 1, e.g. 0.95").at(o.span));
+                    return Err(CellError::input(
+                        "`level` is a confidence level between 0 and 1, e.g. 0.95",
+                    )
+                    .at(o.span));
                 }
             }
         }
@@ -265,14 +361,27 @@ impl Session {
         let plan = resolve(a, ds)?;
         let mut notes = plan.notes.clone();
         if !named {
-            notes.insert(0, format!("dataset {} (the one read most recently); name another with `in NAME`", ds.name));
+            notes.insert(
+                0,
+                format!(
+                    "dataset {} (the one read most recently); name another with `in NAME`",
+                    ds.name
+                ),
+            );
         }
         let cells = cells_of(&plan, level);
         for (name, n) in &cells.empty {
             let _ = n;
-            notes.push(format!("level {name} has no observations in the rows used and is left out"));
+            notes.push(format!(
+                "level {name} has no observations in the rows used and is left out"
+            ));
         }
-        let factor_label = plan.factors.iter().map(|f| f.display_name()).collect::<Vec<_>>().join(" × ");
+        let factor_label = plan
+            .factors
+            .iter()
+            .map(|f| f.display_name())
+            .collect::<Vec<_>>()
+            .join(" × ");
         let y_label = plan.response.display_name().to_string();
         let fig_kind = match a.verb {
             Verb::Plot(k) => k,
@@ -321,19 +430,34 @@ impl Session {
             with_bundle: true,
             ..Default::default()
         };
-        answer.bundle_tables.insert("cells".into(), serde_json::to_value(&cells.summaries).unwrap_or(Json::Null));
+        answer.bundle_tables.insert(
+            "cells".into(),
+            serde_json::to_value(&cells.summaries).unwrap_or(Json::Null),
+        );
         let cells_table = cells_display(&plan, &cells.summaries, level);
         match a.verb {
             Verb::Describe => {
-                answer.title = format!("{y_label} across {factor_label}: {} cells, {} observations", cells.summaries.len(), plan.rows.len());
+                answer.title = format!(
+                    "{y_label} across {factor_label}: {} cells, {} observations",
+                    cells.summaries.len(),
+                    plan.rows.len()
+                );
                 answer.tables.push(cells_table);
             }
             Verb::Plot(k) => {
-                answer.title = format!("{y_label} across {factor_label} ({})", match k {
-                    PlotKind::Means => format!("means with {}% confidence intervals, every observation", pct(level)),
-                    PlotKind::Box => "box plots: median, quartiles, whiskers to 1.5 × IQR; every observation".into(),
-                    PlotKind::Points => "every observation".into(),
-                });
+                answer.title = format!(
+                    "{y_label} across {factor_label} ({})",
+                    match k {
+                        PlotKind::Means => format!(
+                            "means with {}% confidence intervals, every observation",
+                            pct(level)
+                        ),
+                        PlotKind::Box =>
+                            "box plots: median, quartiles, whiskers to 1.5 × IQR; every observation"
+                                .into(),
+                        PlotKind::Points => "every observation".into(),
+                    }
+                );
             }
             Verb::Anova => {
                 if plan.factors.len() != 1 {
@@ -342,11 +466,20 @@ impl Session {
                         plan.factors.len()
                     ))
                     .at(a.factors[1].span)
-                    .note("give one factor, e.g. `anova Y across A`; factorial designs are planned"));
+                    .note(
+                        "give one factor, e.g. `anova Y across A`; factorial designs are planned",
+                    ));
                 }
                 let fname = &plan.factors[0].name;
-                let fit = oneway(fname, &cells.groups.iter().map(|(_, v)| v.clone()).collect::<Vec<_>>())
-                    .map_err(|e| e.at_if_none(a.factors[0].span))?;
+                let fit = oneway(
+                    fname,
+                    &cells
+                        .groups
+                        .iter()
+                        .map(|(_, v)| v.clone())
+                        .collect::<Vec<_>>(),
+                )
+                .map_err(|e| e.at_if_none(a.factors[0].span))?;
                 notes.extend(fit.notes.iter().cloned());
                 let e = fit.effect();
                 answer.title = format!(
@@ -375,7 +508,13 @@ impl Session {
                                 df(r.df),
                                 num(r.ss),
                                 opt(r.ms),
-                                r.f.map(num).unwrap_or_else(|| if r.effect == *fname { "undefined".into() } else { String::new() }),
+                                r.f.map(num).unwrap_or_else(|| {
+                                    if r.effect == *fname {
+                                        "undefined".into()
+                                    } else {
+                                        String::new()
+                                    }
+                                }),
                                 r.p.map(p_table).unwrap_or_default(),
                                 opt(r.eta2),
                                 opt(r.omega2),
@@ -395,10 +534,16 @@ impl Session {
                         es(e.eta2.unwrap_or(0.0)),
                         es(e.omega2.unwrap_or(0.0))
                     ),
-                    _ => format!("{fname}: F undefined (no variation within groups), η² = {}", es(e.eta2.unwrap_or(0.0))),
+                    _ => format!(
+                        "{fname}: F undefined (no variation within groups), η² = {}",
+                        es(e.eta2.unwrap_or(0.0))
+                    ),
                 });
                 answer.caution = Some(CAUTION.into());
-                answer.bundle_tables.insert("anova".into(), serde_json::to_value(&fit.rows).unwrap_or(Json::Null));
+                answer.bundle_tables.insert(
+                    "anova".into(),
+                    serde_json::to_value(&fit.rows).unwrap_or(Json::Null),
+                );
             }
         }
         answer.notes = notes;
@@ -417,11 +562,15 @@ impl Session {
         // The statement so far: from the last newline not continued by a comma.
         let before: String = chars[..start].iter().collect();
         let stmt = statement_before(&before);
-        let words: Vec<&str> = stmt.split(|c: char| !(c.is_alphanumeric() || c == '_')).filter(|w| !w.is_empty()).collect();
+        let words: Vec<&str> = stmt
+            .split(|c: char| !(c.is_alphanumeric() || c == '_'))
+            .filter(|w| !w.is_empty())
+            .collect();
         let mut cands: Vec<String> = Vec::new();
         let verb = words.first().copied();
         let last = words.last().copied();
-        let in_with = words.contains(&"with") && (stmt.trim_end().ends_with(',') || last == Some("with"));
+        let in_with =
+            words.contains(&"with") && (stmt.trim_end().ends_with(',') || last == Some("with"));
         if words.is_empty() {
             cands.extend(lang::VERBS.iter().map(|s| s.to_string()));
         } else if words.len() == 1 && verb == Some("plot") {
@@ -430,31 +579,57 @@ impl Session {
             cands.extend(lang::VERBS.iter().map(|s| s.to_string()));
         } else if in_with {
             if let Some(h) = verb.and_then(help::verb) {
-                cands.extend(h.options.iter().map(|(o, _)| o.split_whitespace().next().unwrap_or("").to_string()));
+                cands.extend(
+                    h.options
+                        .iter()
+                        .map(|(o, _)| o.split_whitespace().next().unwrap_or("").to_string()),
+                );
             }
         } else if last == Some("in") || matches!(verb, Some("show")) && words.len() == 1 {
             cands.extend(self.dataset_names().map(str::to_string));
         } else {
-            let ds_name = words.windows(2).find(|w| w[0] == "in").map(|w| w[1].to_string());
-            let dotted = stmt.trim_end().strip_suffix('.').and_then(|s| s.rsplit(|c: char| !(c.is_alphanumeric() || c == '_')).next());
+            let ds_name = words
+                .windows(2)
+                .find(|w| w[0] == "in")
+                .map(|w| w[1].to_string());
+            let dotted = stmt.trim_end().strip_suffix('.').and_then(|s| {
+                s.rsplit(|c: char| !(c.is_alphanumeric() || c == '_'))
+                    .next()
+            });
             let ds = match dotted {
-                Some(d) if self.datasets.contains_key(d) && stmt.ends_with('.') => self.datasets.get(d),
-                _ => ds_name.as_ref().and_then(|n| self.datasets.get(n)).or_else(|| self.current.as_ref().and_then(|c| self.datasets.get(c))),
+                Some(d) if self.datasets.contains_key(d) && stmt.ends_with('.') => {
+                    self.datasets.get(d)
+                }
+                _ => ds_name
+                    .as_ref()
+                    .and_then(|n| self.datasets.get(n))
+                    .or_else(|| self.current.as_ref().and_then(|c| self.datasets.get(c))),
             };
             if let Some(ds) = ds {
                 cands.extend(ds.column_names().map(str::to_string));
             }
             if !stmt.ends_with('.') {
-                cands.extend(["across", "in", "where", "with", "and", "or"].iter().map(|s| s.to_string()));
+                cands.extend(
+                    ["across", "in", "where", "with", "and", "or"]
+                        .iter()
+                        .map(|s| s.to_string()),
+                );
                 if matches!(verb, Some("levels" | "label")) {
                     cands.extend(self.dataset_names().map(str::to_string));
                 }
             }
         }
-        let mut matches: Vec<String> = cands.into_iter().filter(|c| c.starts_with(&prefix)).collect();
+        let mut matches: Vec<String> = cands
+            .into_iter()
+            .filter(|c| c.starts_with(&prefix))
+            .collect();
         matches.sort();
         matches.dedup();
-        Completion { matches, cursor_start: start, cursor_end: cursor }
+        Completion {
+            matches,
+            cursor_start: start,
+            cursor_end: cursor,
+        }
     }
 
     /// Help or a summary for the word under `cursor` (a character offset).
@@ -475,10 +650,14 @@ impl Session {
             return None;
         }
         if let Some(h) = help::verb(&word) {
-            return Some(Inspection { plain: help::verb_text(h) });
+            return Some(Inspection {
+                plain: help::verb_text(h),
+            });
         }
         if let Some(ds) = self.datasets.get(&word) {
-            return Some(Inspection { plain: crate::render::text::render(&read_answer(ds)) });
+            return Some(Inspection {
+                plain: crate::render::text::render(&read_answer(ds)),
+            });
         }
         // DATASET.COLUMN or a column of the current dataset.
         let before: String = chars[..s].iter().collect();
@@ -489,7 +668,9 @@ impl Session {
             .or_else(|| self.current.as_ref().and_then(|c| self.datasets.get(c)));
         let ds = ds?;
         let col = ds.column(&word)?;
-        Some(Inspection { plain: format!("{}.{}: {}", ds.name, col.name, column_summary(col)) })
+        Some(Inspection {
+            plain: format!("{}.{}: {}", ds.name, col.name, column_summary(col)),
+        })
     }
 }
 
@@ -525,7 +706,11 @@ fn cells_of(plan: &Plan<'_>, level: f64) -> Cells {
         }
         buckets[idx].push(plan.y.shifted[i]);
     }
-    let mut out = Cells { groups: Vec::new(), summaries: Vec::new(), empty: Vec::new() };
+    let mut out = Cells {
+        groups: Vec::new(),
+        summaries: Vec::new(),
+        empty: Vec::new(),
+    };
     for (idx, vals) in buckets.into_iter().enumerate() {
         let mut rem = idx;
         let mut codes = vec![0usize; nf];
@@ -539,9 +724,14 @@ fn cells_of(plan: &Plan<'_>, level: f64) -> Cells {
             out.empty.push((label, idx));
             continue;
         }
-        let levels: BTreeMap<String, String> =
-            plan.factors.iter().zip(&names).map(|(f, n)| (f.name.clone(), n.clone())).collect();
-        out.summaries.push(summarise(levels, &vals, plan.y.offset, level));
+        let levels: BTreeMap<String, String> = plan
+            .factors
+            .iter()
+            .zip(&names)
+            .map(|(f, n)| (f.name.clone(), n.clone()))
+            .collect();
+        out.summaries
+            .push(summarise(levels, &vals, plan.y.offset, level));
         out.groups.push((label, vals));
     }
     out
@@ -552,7 +742,11 @@ fn pct(level: f64) -> String {
 }
 
 fn cells_display(plan: &Plan<'_>, cells: &[CellSummary], level: f64) -> DisplayTable {
-    let mut columns: Vec<(String, Align)> = plan.factors.iter().map(|f| (f.display_name().to_string(), Align::Left)).collect();
+    let mut columns: Vec<(String, Align)> = plan
+        .factors
+        .iter()
+        .map(|f| (f.display_name().to_string(), Align::Left))
+        .collect();
     for h in ["n", "mean", "SD", "SE"] {
         columns.push((h.into(), Align::Right));
     }
@@ -561,7 +755,11 @@ fn cells_display(plan: &Plan<'_>, cells: &[CellSummary], level: f64) -> DisplayT
     let rows = cells
         .iter()
         .map(|c| {
-            let mut r: Vec<String> = plan.factors.iter().map(|f| c.levels.get(&f.name).cloned().unwrap_or_default()).collect();
+            let mut r: Vec<String> = plan
+                .factors
+                .iter()
+                .map(|f| c.levels.get(&f.name).cloned().unwrap_or_default())
+                .collect();
             r.push(c.n.to_string());
             r.push(num(c.mean));
             r.push(opt(c.sd));
@@ -574,7 +772,11 @@ fn cells_display(plan: &Plan<'_>, cells: &[CellSummary], level: f64) -> DisplayT
         })
         .collect();
     DisplayTable {
-        caption: format!("{} by cell (mean ± t-based {}% confidence interval)", plan.response.display_name(), pct(level)),
+        caption: format!(
+            "{} by cell (mean ± t-based {}% confidence interval)",
+            plan.response.display_name(),
+            pct(level)
+        ),
         columns,
         rows,
     }
@@ -595,8 +797,17 @@ fn column_summary(c: &crate::data::Column) -> String {
         }
         ColumnData::Factor(f) => {
             let shown: Vec<&str> = f.levels.iter().take(12).map(String::as_str).collect();
-            let more = if f.levels.len() > 12 { format!(", … ({} more)", f.levels.len() - 12) } else { String::new() };
-            let mut s = format!("factor, {} level{}: {}{more}", f.levels.len(), plural(f.levels.len()), shown.join(", "));
+            let more = if f.levels.len() > 12 {
+                format!(", … ({} more)", f.levels.len() - 12)
+            } else {
+                String::new()
+            };
+            let mut s = format!(
+                "factor, {} level{}: {}{more}",
+                f.levels.len(),
+                plural(f.levels.len()),
+                shown.join(", ")
+            );
             if miss > 0 {
                 s.push_str(&format!("; {miss} missing"));
             }
@@ -646,8 +857,16 @@ fn read_answer(ds: &Dataset) -> Answer {
         title: head,
         tables: vec![DisplayTable {
             caption: String::new(),
-            columns: vec![("column".into(), Align::Left), ("type".into(), Align::Left), ("summary".into(), Align::Left)],
-            rows: ds.columns.iter().map(|c| vec![c.name.clone(), c.type_name().into(), column_summary(c)]).collect(),
+            columns: vec![
+                ("column".into(), Align::Left),
+                ("type".into(), Align::Left),
+                ("summary".into(), Align::Left),
+            ],
+            rows: ds
+                .columns
+                .iter()
+                .map(|c| vec![c.name.clone(), c.type_name().into(), column_summary(c)])
+                .collect(),
         }],
         plain: Some(plain),
         design: Json::Null,
@@ -666,7 +885,10 @@ fn read_answer(ds: &Dataset) -> Answer {
 }
 
 fn short(text: String) -> Answer {
-    Answer { plain: Some(text), ..Default::default() }
+    Answer {
+        plain: Some(text),
+        ..Default::default()
+    }
 }
 
 fn help_answer(topic: Option<&Name>) -> Result<Answer, CellError> {
@@ -685,8 +907,15 @@ fn help_answer(topic: Option<&Name>) -> Result<Answer, CellError> {
                 plain: Some(text),
                 tables: vec![DisplayTable {
                     caption: String::new(),
-                    columns: vec![("option".into(), Align::Left), ("meaning".into(), Align::Left)],
-                    rows: h.options.iter().map(|(o, d)| vec![o.to_string(), d.to_string()]).collect(),
+                    columns: vec![
+                        ("option".into(), Align::Left),
+                        ("meaning".into(), Align::Left),
+                    ],
+                    rows: h
+                        .options
+                        .iter()
+                        .map(|(o, d)| vec![o.to_string(), d.to_string()])
+                        .collect(),
                 }]
                 .into_iter()
                 .filter(|t| !t.rows.is_empty())
@@ -697,20 +926,34 @@ fn help_answer(topic: Option<&Name>) -> Result<Answer, CellError> {
             })
         }
         None => {
-            let mut plain = String::from("Partita statements (one per line; a trailing comma continues a line):\n");
+            let mut plain = String::from(
+                "Partita statements (one per line; a trailing comma continues a line):\n",
+            );
             for h in help::VERBS {
                 plain.push_str(&format!("\n  {}\n      {}\n", h.usage, h.summary));
             }
-            plain.push_str(&format!("\n{}\n\n`help VERB` shows one verb's options and an example.", help::WHERE_HELP));
+            plain.push_str(&format!(
+                "\n{}\n\n`help VERB` shows one verb's options and an example.",
+                help::WHERE_HELP
+            ));
             Ok(Answer {
                 command: "help".into(),
                 title: "Partita statements".into(),
                 tables: vec![DisplayTable {
                     caption: "one statement per line; a trailing comma continues it".into(),
-                    columns: vec![("statement".into(), Align::Left), ("what it does".into(), Align::Left)],
-                    rows: help::VERBS.iter().map(|h| vec![h.usage.to_string(), h.summary.to_string()]).collect(),
+                    columns: vec![
+                        ("statement".into(), Align::Left),
+                        ("what it does".into(), Align::Left),
+                    ],
+                    rows: help::VERBS
+                        .iter()
+                        .map(|h| vec![h.usage.to_string(), h.summary.to_string()])
+                        .collect(),
                 }],
-                notes: vec![help::WHERE_HELP.into(), "`help VERB` shows one verb's options and an example.".into()],
+                notes: vec![
+                    help::WHERE_HELP.into(),
+                    "`help VERB` shows one verb's options and an example.".into(),
+                ],
                 plain: Some(plain),
                 ..Default::default()
             })
@@ -721,16 +964,21 @@ fn help_answer(topic: Option<&Name>) -> Result<Answer, CellError> {
 fn check_options(options: &[Opt], verb: &str, allowed: &[&str]) -> Result<(), CellError> {
     for (i, o) in options.iter().enumerate() {
         if !allowed.contains(&o.name.value.as_str()) {
-            let mut e = CellError::input(format!("`{verb}` has no option `{}`", o.name.value)).at(o.name.span);
+            let mut e = CellError::input(format!("`{verb}` has no option `{}`", o.name.value))
+                .at(o.name.span);
             e = if allowed.is_empty() {
                 e.note(format!("`{verb}` takes no options"))
             } else {
-                e.suggest(nearest(&o.name.value, allowed.iter().copied())).note(format!("options of `{verb}`: {}", allowed.join(", ")))
+                e.suggest(nearest(&o.name.value, allowed.iter().copied()))
+                    .note(format!("options of `{verb}`: {}", allowed.join(", ")))
             };
             return Err(e);
         }
         if options[..i].iter().any(|p| p.name.value == o.name.value) {
-            return Err(CellError::input(format!("option `{}` is given twice", o.name.value)).at(o.name.span));
+            return Err(
+                CellError::input(format!("option `{}` is given twice", o.name.value))
+                    .at(o.name.span),
+            );
         }
     }
     Ok(())
@@ -747,7 +995,12 @@ fn one_value(o: &Opt) -> Result<&Value, CellError> {
 fn one_number(o: &Opt) -> Result<f64, CellError> {
     match one_value(o)? {
         Value::Num(v, _) => Ok(*v),
-        other => Err(CellError::input(format!("option `{}` takes a number, not \"{}\"", o.name.value, other.text())).at(o.span)),
+        other => Err(CellError::input(format!(
+            "option `{}` takes a number, not \"{}\"",
+            o.name.value,
+            other.text()
+        ))
+        .at(o.span)),
     }
 }
 

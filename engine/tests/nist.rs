@@ -21,17 +21,41 @@ struct Certified {
 }
 
 fn load(name: &str) -> (Certified, String) {
-    let path = format!("{}/../tests/data/nist-anova/{name}.dat", env!("CARGO_MANIFEST_DIR"));
+    let path = format!(
+        "{}/../tests/data/nist-anova/{name}.dat",
+        env!("CARGO_MANIFEST_DIR")
+    );
     let text = std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("{path}: {e}"));
-    let nums = |line: &str| -> Vec<f64> { line.split_whitespace().filter_map(|w| w.parse().ok()).collect() };
-    let between = text.lines().find(|l| l.starts_with("Between ")).expect("between line");
-    let within = text.lines().find(|l| l.starts_with("Within ")).expect("within line");
+    let nums = |line: &str| -> Vec<f64> {
+        line.split_whitespace()
+            .filter_map(|w| w.parse().ok())
+            .collect()
+    };
+    let between = text
+        .lines()
+        .find(|l| l.starts_with("Between "))
+        .expect("between line");
+    let within = text
+        .lines()
+        .find(|l| l.starts_with("Within "))
+        .expect("within line");
     let b = nums(between);
     let w = nums(within);
-    let cert = Certified { df_b: b[0], ss_b: b[1], ms_b: b[2], f: b[3], df_w: w[0], ss_w: w[1], ms_w: w[2] };
+    let cert = Certified {
+        df_b: b[0],
+        ss_b: b[1],
+        ms_b: b[2],
+        f: b[3],
+        df_w: w[0],
+        ss_w: w[1],
+        ms_w: w[2],
+    };
     let mut csv = String::from("treatment,response\n");
     // The header says where the data are: "Data (lines A to B)".
-    let range = text.lines().find(|l| l.trim_start().starts_with("Data ") && l.contains("lines")).expect("data line range");
+    let range = text
+        .lines()
+        .find(|l| l.trim_start().starts_with("Data ") && l.contains("lines"))
+        .expect("data line range");
     let r = nums(&range.replace(['(', ')'], " "));
     let (first, last) = (r[0] as usize, r[1] as usize);
     for line in text.lines().skip(first - 1).take(last + 1 - first) {
@@ -54,7 +78,9 @@ fn check(name: &str, floor: f64) {
     let mut opts = ReadOptions::new();
     opts.factors = vec!["treatment".into()];
     let ds = parse_bytes(csv.as_bytes(), name, "nist", &opts).unwrap();
-    let (ColumnData::Factor(g), ColumnData::Numeric(y)) = (&ds.columns[0].data, &ds.columns[1].data) else {
+    let (ColumnData::Factor(g), ColumnData::Numeric(y)) =
+        (&ds.columns[0].data, &ds.columns[1].data)
+    else {
         panic!("column types")
     };
     let mut groups = vec![Vec::new(); g.levels.len()];
@@ -72,7 +98,13 @@ fn check(name: &str, floor: f64) {
         ("MS within", lre(w.ms.unwrap(), c.ms_w)),
         ("F", lre(e.f.unwrap(), c.f)),
     ];
-    println!("{name}: {}", l.iter().map(|(k, v)| format!("{k} {v:.1}")).collect::<Vec<_>>().join(", "));
+    println!(
+        "{name}: {}",
+        l.iter()
+            .map(|(k, v)| format!("{k} {v:.1}"))
+            .collect::<Vec<_>>()
+            .join(", ")
+    );
     for (k, v) in l {
         assert!(v >= floor, "{name} {k}: LRE {v:.2} < {floor}");
     }

@@ -61,9 +61,17 @@ pub fn serve(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), S
     rt.block_on(run(conn, interp))
 }
 
-async fn bind<S: Socket>(s: &mut S, conn: &ConnectionInfo, port: u16, name: &str) -> Result<(), String> {
+async fn bind<S: Socket>(
+    s: &mut S,
+    conn: &ConnectionInfo,
+    port: u16,
+    name: &str,
+) -> Result<(), String> {
     let ep = conn.endpoint(port);
-    s.bind(&ep).await.map(|_| ()).map_err(|e| format!("cannot bind the {name} socket to {ep}: {e}"))
+    s.bind(&ep)
+        .await
+        .map(|_| ())
+        .map_err(|e| format!("cannot bind the {name} socket to {ep}: {e}"))
 }
 
 async fn run(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), String> {
@@ -82,7 +90,12 @@ async fn run(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), S
     let (shell_tx, mut shell_rx) = unbounded_channel::<Frames>();
     let (control_tx, mut control_rx) = unbounded_channel::<Frames>();
     let (iopub_tx, mut iopub_rx) = unbounded_channel::<Frames>();
-    let transport = SocketTransport { signer: signer.clone(), shell: shell_tx, control: control_tx, iopub: iopub_tx };
+    let transport = SocketTransport {
+        signer: signer.clone(),
+        shell: shell_tx,
+        control: control_tx,
+        iopub: iopub_tx,
+    };
     let (exit_tx, mut exit_rx) = unbounded_channel::<()>();
 
     let (mut shell_send, mut shell_recv) = shell.split();
@@ -137,13 +150,25 @@ async fn run(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), S
 
     let interrupt = Arc::new(AtomicBool::new(false));
     let replier = Replier::new();
-    let dispatcher = Dispatcher::new(transport.clone(), interp, interrupt.clone(), replier.clone());
-    let control_handler = Control::new(transport.clone(), dispatcher.info(), interrupt.clone(), replier);
+    let dispatcher = Dispatcher::new(
+        transport.clone(),
+        interp,
+        interrupt.clone(),
+        replier.clone(),
+    );
+    let control_handler = Control::new(
+        transport.clone(),
+        dispatcher.info(),
+        interrupt.clone(),
+        replier,
+    );
 
     // SIGINT interrupts the running cell, like an interrupt_request.
     {
         let interrupt = interrupt.clone();
-        if let Ok(mut sig) = tokio::signal::unix::signal(tokio::signal::unix::SignalKind::interrupt()) {
+        if let Ok(mut sig) =
+            tokio::signal::unix::signal(tokio::signal::unix::SignalKind::interrupt())
+        {
             tokio::spawn(async move {
                 while sig.recv().await.is_some() {
                     interrupt.store(true, std::sync::atomic::Ordering::SeqCst);
@@ -153,7 +178,7 @@ async fn run(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), S
     }
 
     // Shell requests, one at a time, on a thread of their own.
-    let (work_tx, work_rx) = std::sync::mpsc::channel::<Frames>();
+    let (work_tx, work_rx) = std::sync::mpsc::channel::<(std::time::Instant, Frames)>();
     {
         let signer = signer.clone();
         let exit_tx = exit_tx.clone();
@@ -166,7 +191,10 @@ async fn run(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), S
         loop {
             match shell_recv.recv().await {
                 Ok(m) => {
-                    if work_tx.send(from_zmq(m)).is_err() {
+                    if work_tx
+                        .send((std::time::Instant::now(), from_zmq(m)))
+                        .is_err()
+                    {
                         break;
                     }
                 }
@@ -206,27 +234,28 @@ async fn run(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), S
 fn shell_loop<T: Transport>(
     mut d: Dispatcher<T>,
     signer: Signer,
-    rx: std::sync::mpsc::Receiver<Frames>,
+    rx: std::sync::mpsc::Receiver<(std::time::Instant, Frames)>,
     exit_tx: UnboundedSender<()>,
 ) {
-    while let Ok(frames) = rx.recv() {
-        let Some(m) = decode_or_log(&signer, &frames, "shell") else { continue };
+    // Execute requests that arrived before this instant are aborted (stop_on_error).
+    let mut abort_before: Option<std::time::Instant> = None;
+    while let Ok((arrived, frames)) = rx.recv() {
+        let Some(m) = decode_or_log(&signer, &frames, "shell") else {
+            continue;
+        };
+        if is_execute(&m) && abort_before.is_some_and(|t| arrived < t) {
+            d.abort(Channel::Shell, &m);
+            continue;
+        }
+        if abort_before.is_some_and(|t| arrived >= t) {
+            abort_before = None;
+        }
         if d.handle(Channel::Shell, &m) == Flow::Shutdown {
             let _ = exit_tx.send(());
             return;
         }
         if d.take_failed() {
-            // stop_on_error: abort the execute requests already queued behind the failure.
-            std::thread::sleep(std::time::Duration::from_millis(10));
-            while let Ok(f) = rx.try_recv() {
-                let Some(q) = decode_or_log(&signer, &f, "shell") else { continue };
-                if is_execute(&q) {
-                    d.abort(Channel::Shell, &q);
-                } else if d.handle(Channel::Shell, &q) == Flow::Shutdown {
-                    let _ = exit_tx.send(());
-                    return;
-                }
-            }
+            abort_before = Some(d.replied_at());
         }
     }
 }

@@ -30,10 +30,13 @@ pub struct ConnectionInfo {
 impl ConnectionInfo {
     /// Parses and validates a connection file's text.
     pub fn parse(text: &str) -> Result<ConnectionInfo, String> {
-        let c: ConnectionInfo =
-            serde_json::from_str(text).map_err(|e| format!("the connection file is not valid: {e}"))?;
+        let c: ConnectionInfo = serde_json::from_str(text)
+            .map_err(|e| format!("the connection file is not valid: {e}"))?;
         if c.transport != "tcp" {
-            return Err(format!("transport \"{}\" is not supported; partita speaks tcp only", c.transport));
+            return Err(format!(
+                "transport \"{}\" is not supported; partita speaks tcp only",
+                c.transport
+            ));
         }
         if !c.key.is_empty() && c.signature_scheme != "hmac-sha256" {
             return Err(format!(
@@ -46,8 +49,16 @@ impl ConnectionInfo {
 
     /// The endpoint for `port` (`*` becomes `0.0.0.0`, which the zeromq crate parses).
     pub fn endpoint(&self, port: u16) -> String {
-        let ip = if self.ip == "*" { "0.0.0.0" } else { self.ip.as_str() };
-        if ip.contains(':') { format!("tcp://[{ip}]:{port}") } else { format!("tcp://{ip}:{port}") }
+        let ip = if self.ip == "*" {
+            "0.0.0.0"
+        } else {
+            self.ip.as_str()
+        };
+        if ip.contains(':') {
+            format!("tcp://[{ip}]:{port}")
+        } else {
+            format!("tcp://{ip}:{port}")
+        }
     }
 }
 
@@ -79,7 +90,8 @@ mod tests {
         let e = ConnectionInfo::parse(&FILE.replace("\"tcp\"", "\"ipc\"")).unwrap_err();
         assert!(e.contains("ipc"));
         // An empty key with no scheme is an unsigned connection, which the protocol allows.
-        let c = ConnectionInfo::parse(&FILE.replace("\"abc\"", "\"\"").replace("hmac-sha256", "")).unwrap();
+        let c = ConnectionInfo::parse(&FILE.replace("\"abc\"", "\"\"").replace("hmac-sha256", ""))
+            .unwrap();
         assert!(c.key.is_empty());
     }
 }

@@ -48,6 +48,7 @@ pub struct Dispatcher<T: Transport> {
     interrupt: Arc<AtomicBool>,
     execution_count: u64,
     failed: bool,
+    replied_at: std::time::Instant,
 }
 
 fn status(ok: bool) -> &'static str {
@@ -74,19 +75,37 @@ pub fn kernel_info_content(interp: &dyn Interpreter) -> Value {
 
 impl<T: Transport> Dispatcher<T> {
     /// A dispatcher around `interp`; `interrupt` is shared with the control handler.
-    pub fn new(transport: T, interp: Box<dyn Interpreter>, interrupt: Arc<AtomicBool>, replier: Replier) -> Self {
-        Dispatcher { replier, transport, interp, interrupt, execution_count: 0, failed: false }
+    pub fn new(
+        transport: T,
+        interp: Box<dyn Interpreter>,
+        interrupt: Arc<AtomicBool>,
+        replier: Replier,
+    ) -> Self {
+        Dispatcher {
+            replier,
+            transport,
+            interp,
+            interrupt,
+            execution_count: 0,
+            failed: false,
+            replied_at: std::time::Instant::now(),
+        }
     }
 
     fn publish(&self, parent: &Message, msg_type: &str, content: Value) {
-        self.transport.send(Channel::IoPub, self.replier.broadcast(Some(parent), msg_type, content));
+        self.transport.send(
+            Channel::IoPub,
+            self.replier.broadcast(Some(parent), msg_type, content),
+        );
     }
 
     /// Handles one decoded request that arrived on `channel`: busy, reply, idle.
     pub fn handle(&mut self, channel: Channel, m: &Message) -> Flow {
         self.publish(m, "status", json!({"execution_state": "busy"}));
         let req = Request::decode(m);
-        let (reply_type, content, flow) = match catch_unwind(AssertUnwindSafe(|| self.answer(m, &req))) {
+        let (reply_type, content, flow) = match catch_unwind(AssertUnwindSafe(|| {
+            self.answer(m, &req)
+        })) {
             Ok(r) => r,
             Err(_) => {
                 let rt = reply_type(m.msg_type());
@@ -96,9 +115,17 @@ impl<T: Transport> Dispatcher<T> {
                 (rt, c, Flow::Continue)
             }
         };
-        self.transport.send(channel, self.replier.reply_to(m, &reply_type, content));
+        self.replied_at = std::time::Instant::now();
+        self.transport
+            .send(channel, self.replier.reply_to(m, &reply_type, content));
         self.publish(m, "status", json!({"execution_state": "idle"}));
         flow
+    }
+
+    /// When the last reply was sent: requests that arrived before it are the queue a failure
+    /// with stop_on_error aborts.
+    pub fn replied_at(&self) -> std::time::Instant {
+        self.replied_at
     }
 
     /// Whether the last request was an execute that failed with stop_on_error (then cleared).
@@ -110,7 +137,10 @@ impl<T: Transport> Dispatcher<T> {
     pub fn abort(&mut self, channel: Channel, m: &Message) {
         self.publish(m, "status", json!({"execution_state": "busy"}));
         let content = json!({"status": "aborted", "execution_count": self.execution_count});
-        self.transport.send(channel, self.replier.reply_to(m, &reply_type(m.msg_type()), content));
+        self.transport.send(
+            channel,
+            self.replier.reply_to(m, &reply_type(m.msg_type()), content),
+        );
         self.publish(m, "status", json!({"execution_state": "idle"}));
     }
 
@@ -144,7 +174,10 @@ impl<T: Transport> Dispatcher<T> {
             }
             Request::History => (json!({"status": "ok", "history": []}), Flow::Continue),
             Request::CommInfo => (json!({"status": "ok", "comms": {}}), Flow::Continue),
-            Request::Shutdown(s) => (json!({"status": "ok", "restart": s.restart}), Flow::Shutdown),
+            Request::Shutdown(s) => (
+                json!({"status": "ok", "restart": s.restart}),
+                Flow::Shutdown,
+            ),
             Request::Interrupt => {
                 self.interrupt.store(true, Ordering::SeqCst);
                 (json!({"status": "ok"}), Flow::Continue)
@@ -167,7 +200,11 @@ impl<T: Transport> Dispatcher<T> {
         // Cleared before execute_input is published, so an interrupt sent on seeing it counts.
         self.interrupt.store(false, Ordering::SeqCst);
         if !e.silent {
-            self.publish(m, "execute_input", json!({"code": e.code, "execution_count": count}));
+            self.publish(
+                m,
+                "execute_input",
+                json!({"code": e.code, "execution_count": count}),
+            );
         }
         let silent = e.silent;
         let interrupt = self.interrupt.clone();
@@ -178,9 +215,15 @@ impl<T: Transport> Dispatcher<T> {
                 return;
             }
             let (t, c) = if d.is_result {
-                ("execute_result", json!({"execution_count": count, "data": d.data, "metadata": d.metadata}))
+                (
+                    "execute_result",
+                    json!({"execution_count": count, "data": d.data, "metadata": d.metadata}),
+                )
             } else {
-                ("display_data", json!({"data": d.data, "metadata": d.metadata, "transient": {}}))
+                (
+                    "display_data",
+                    json!({"data": d.data, "metadata": d.metadata, "transient": {}}),
+                )
             };
             transport.send(Channel::IoPub, replier.broadcast(Some(m), t, c));
         };
@@ -193,7 +236,9 @@ impl<T: Transport> Dispatcher<T> {
                 })
             });
         match result {
-            Ok(()) => json!({"status": "ok", "execution_count": count, "payload": [], "user_expressions": {}}),
+            Ok(()) => {
+                json!({"status": "ok", "execution_count": count, "payload": [], "user_expressions": {}})
+            }
             Err(err) => {
                 self.failed = e.stop_on_error;
                 if !silent {
@@ -247,20 +292,37 @@ mod tests {
 
     struct Echo;
     impl Interpreter for Echo {
-        fn execute(&mut self, code: &str, _: &Arc<AtomicBool>, out: &mut dyn FnMut(DisplayOut)) -> Result<(), ExecError> {
+        fn execute(
+            &mut self,
+            code: &str,
+            _: &Arc<AtomicBool>,
+            out: &mut dyn FnMut(DisplayOut),
+        ) -> Result<(), ExecError> {
             match code {
-                "fail" => Err(ExecError { ename: "DataError".into(), evalue: "bad".into(), traceback: vec!["bad".into()] }),
+                "fail" => Err(ExecError {
+                    ename: "DataError".into(),
+                    evalue: "bad".into(),
+                    traceback: vec!["bad".into()],
+                }),
                 "panic" => panic!("boom"),
                 _ => {
                     let mut data = Map::new();
                     data.insert("text/plain".into(), Value::String(code.into()));
-                    out(DisplayOut { data, metadata: Map::new(), is_result: true });
+                    out(DisplayOut {
+                        data,
+                        metadata: Map::new(),
+                        is_result: true,
+                    });
                     Ok(())
                 }
             }
         }
         fn complete(&mut self, _: &str, c: usize) -> Completions {
-            Completions { matches: vec!["anova".into()], cursor_start: 0, cursor_end: c }
+            Completions {
+                matches: vec!["anova".into()],
+                cursor_start: 0,
+                cursor_end: c,
+            }
         }
         fn inspect(&mut self, _: &str, _: usize) -> Option<Map<String, Value>> {
             None
@@ -283,13 +345,28 @@ mod tests {
 
     fn request(t: &str, content: Value) -> Message {
         let Value::Object(header) = json!({"msg_id": "m", "msg_type": t, "session": "c", "username": "u",
-            "date": "", "version": "5.3"}) else { unreachable!() };
-        Message { identities: vec![b"p".to_vec()], header, parent_header: Map::new(), metadata: Map::new(), content, buffers: vec![] }
+            "date": "", "version": "5.3"})
+        else {
+            unreachable!()
+        };
+        Message {
+            identities: vec![b"p".to_vec()],
+            header,
+            parent_header: Map::new(),
+            metadata: Map::new(),
+            content,
+            buffers: vec![],
+        }
     }
 
     fn run(t: &str, content: Value) -> Vec<(Channel, Message)> {
         let mem = Memory::default();
-        let mut d = Dispatcher::new(mem.clone(), Box::new(Echo), Arc::new(AtomicBool::new(false)), Replier::new());
+        let mut d = Dispatcher::new(
+            mem.clone(),
+            Box::new(Echo),
+            Arc::new(AtomicBool::new(false)),
+            Replier::new(),
+        );
         d.handle(Channel::Shell, &request(t, content));
         let v = mem.0.lock().unwrap().clone();
         v
@@ -333,10 +410,28 @@ mod tests {
     #[test]
     fn execute_order_and_counts() {
         let v = run("execute_request", json!({"code": "x"}));
-        assert_eq!(types(&v), ["status", "execute_input", "execute_result", "execute_reply", "status"]);
+        assert_eq!(
+            types(&v),
+            [
+                "status",
+                "execute_input",
+                "execute_result",
+                "execute_reply",
+                "status"
+            ]
+        );
         assert_eq!(v[2].1.content["execution_count"], 1);
         let v = run("execute_request", json!({"code": "fail"}));
-        assert_eq!(types(&v), ["status", "execute_input", "error", "execute_reply", "status"]);
+        assert_eq!(
+            types(&v),
+            [
+                "status",
+                "execute_input",
+                "error",
+                "execute_reply",
+                "status"
+            ]
+        );
         assert_eq!(v[3].1.content["status"], "error");
         let v = run("execute_request", json!({"code": "panic"}));
         assert_eq!(v[3].1.content["ename"], "InternalError");
@@ -349,7 +444,15 @@ mod tests {
     fn kernel_info_golden_fields() {
         let v = run("kernel_info_request", json!({}));
         let c = &v[1].1.content;
-        for k in ["status", "protocol_version", "implementation", "implementation_version", "language_info", "banner", "help_links"] {
+        for k in [
+            "status",
+            "protocol_version",
+            "implementation",
+            "implementation_version",
+            "language_info",
+            "banner",
+            "help_links",
+        ] {
             assert!(c.get(k).is_some(), "{k}");
         }
         assert_eq!(c["protocol_version"], "5.3");
@@ -361,18 +464,43 @@ mod tests {
     #[test]
     fn complete_and_shutdown_replies() {
         let v = run("complete_request", json!({"code": "an", "cursor_pos": 2}));
-        assert_eq!(v[1].1.content, json!({"status": "ok", "matches": ["anova"], "cursor_start": 0, "cursor_end": 2, "metadata": {}}));
+        assert_eq!(
+            v[1].1.content,
+            json!({"status": "ok", "matches": ["anova"], "cursor_start": 0, "cursor_end": 2, "metadata": {}})
+        );
         let mem = Memory::default();
-        let mut d = Dispatcher::new(mem.clone(), Box::new(Echo), Arc::new(AtomicBool::new(false)), Replier::new());
-        assert_eq!(d.handle(Channel::Control, &request("shutdown_request", json!({"restart": true}))), Flow::Shutdown);
-        assert_eq!(mem.0.lock().unwrap()[1].1.content, json!({"status": "ok", "restart": true}));
+        let mut d = Dispatcher::new(
+            mem.clone(),
+            Box::new(Echo),
+            Arc::new(AtomicBool::new(false)),
+            Replier::new(),
+        );
+        assert_eq!(
+            d.handle(
+                Channel::Control,
+                &request("shutdown_request", json!({"restart": true}))
+            ),
+            Flow::Shutdown
+        );
+        assert_eq!(
+            mem.0.lock().unwrap()[1].1.content,
+            json!({"status": "ok", "restart": true})
+        );
     }
 
     #[test]
     fn aborted_requests_are_paired_too() {
         let mem = Memory::default();
-        let mut d = Dispatcher::new(mem.clone(), Box::new(Echo), Arc::new(AtomicBool::new(false)), Replier::new());
-        d.abort(Channel::Shell, &request("execute_request", json!({"code": "x"})));
+        let mut d = Dispatcher::new(
+            mem.clone(),
+            Box::new(Echo),
+            Arc::new(AtomicBool::new(false)),
+            Replier::new(),
+        );
+        d.abort(
+            Channel::Shell,
+            &request("execute_request", json!({"code": "x"})),
+        );
         let v = mem.0.lock().unwrap().clone();
         assert_eq!(types(&v), ["status", "execute_reply", "status"]);
         assert_eq!(v[1].1.content["status"], "aborted");
@@ -390,13 +518,22 @@ pub struct Control<T: Transport> {
 impl<T: Transport> Control<T> {
     /// A control handler; `info` is the kernel_info_reply content.
     pub fn new(transport: T, info: Value, interrupt: Arc<AtomicBool>, replier: Replier) -> Self {
-        Control { replier, transport, info, interrupt }
+        Control {
+            replier,
+            transport,
+            info,
+            interrupt,
+        }
     }
 
     /// Busy, reply, idle.
     pub fn handle(&self, m: &Message) -> Flow {
         let pubm = |state: &str| {
-            self.transport.send(Channel::IoPub, self.replier.broadcast(Some(m), "status", json!({"execution_state": state})))
+            self.transport.send(
+                Channel::IoPub,
+                self.replier
+                    .broadcast(Some(m), "status", json!({"execution_state": state})),
+            )
         };
         pubm("busy");
         let (content, flow) = match Request::decode(m) {
@@ -405,14 +542,20 @@ impl<T: Transport> Control<T> {
                 self.interrupt.store(true, Ordering::SeqCst);
                 (json!({"status": "ok"}), Flow::Continue)
             }
-            Request::Shutdown(s) => (json!({"status": "ok", "restart": s.restart}), Flow::Shutdown),
+            Request::Shutdown(s) => (
+                json!({"status": "ok", "restart": s.restart}),
+                Flow::Shutdown,
+            ),
             other => (
                 json!({"status": "error", "ename": "UnknownRequest",
                     "evalue": format!("partita does not handle {other:?} on the control channel"), "traceback": []}),
                 Flow::Continue,
             ),
         };
-        self.transport.send(Channel::Control, self.replier.reply_to(m, &reply_type(m.msg_type()), content));
+        self.transport.send(
+            Channel::Control,
+            self.replier.reply_to(m, &reply_type(m.msg_type()), content),
+        );
         pubm("idle");
         flow
     }

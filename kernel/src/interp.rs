@@ -71,7 +71,12 @@ pub struct LanguageInfo {
 pub trait Interpreter: Send {
     /// Runs a cell. Outputs go to `out` as they are ready; `interrupt` turns true when the user
     /// asks to stop.
-    fn execute(&mut self, code: &str, interrupt: &Arc<AtomicBool>, out: &mut dyn FnMut(DisplayOut)) -> Result<(), ExecError>;
+    fn execute(
+        &mut self,
+        code: &str,
+        interrupt: &Arc<AtomicBool>,
+        out: &mut dyn FnMut(DisplayOut),
+    ) -> Result<(), ExecError>;
     /// Completion at `cursor`.
     fn complete(&mut self, code: &str, cursor: usize) -> Completions;
     /// Help or a summary for what is under `cursor`, as a MIME bundle.

@@ -112,7 +112,9 @@ pub struct Replier {
 impl Replier {
     /// A new session id.
     pub fn new() -> Replier {
-        Replier { session: uuid::Uuid::new_v4().to_string() }
+        Replier {
+            session: uuid::Uuid::new_v4().to_string(),
+        }
     }
 
     fn header(&self, msg_type: &str) -> Map<String, Value> {
@@ -165,8 +167,19 @@ mod tests {
     use super::*;
 
     fn with(msg_type: &str, content: Value) -> Message {
-        let Value::Object(header) = json!({"msg_id": "m1", "msg_type": msg_type, "session": "client"}) else { unreachable!() };
-        Message { identities: vec![b"id".to_vec()], header, parent_header: Map::new(), metadata: Map::new(), content, buffers: vec![] }
+        let Value::Object(header) =
+            json!({"msg_id": "m1", "msg_type": msg_type, "session": "client"})
+        else {
+            unreachable!()
+        };
+        Message {
+            identities: vec![b"id".to_vec()],
+            header,
+            parent_header: Map::new(),
+            metadata: Map::new(),
+            content,
+            buffers: vec![],
+        }
     }
 
     #[test]
@@ -174,12 +187,26 @@ mod tests {
         let r = Request::decode(&with("execute_request", json!({"code": "help"})));
         assert_eq!(
             r,
-            Request::Execute(ExecuteRequest { code: "help".into(), silent: false, store_history: true, stop_on_error: true })
+            Request::Execute(ExecuteRequest {
+                code: "help".into(),
+                silent: false,
+                store_history: true,
+                stop_on_error: true
+            })
         );
-        assert_eq!(Request::decode(&with("shutdown_request", json!({"restart": true}))), Request::Shutdown(Shutdown { restart: true }));
-        assert_eq!(Request::decode(&with("bogus_request", json!({}))), Request::Unknown("bogus_request".into()));
+        assert_eq!(
+            Request::decode(&with("shutdown_request", json!({"restart": true}))),
+            Request::Shutdown(Shutdown { restart: true })
+        );
+        assert_eq!(
+            Request::decode(&with("bogus_request", json!({}))),
+            Request::Unknown("bogus_request".into())
+        );
         // Content that does not fit its type is kept as unknown rather than failing.
-        assert_eq!(Request::decode(&with("execute_request", json!({"code": 5}))), Request::Unknown("execute_request".into()));
+        assert_eq!(
+            Request::decode(&with("execute_request", json!({"code": 5}))),
+            Request::Unknown("execute_request".into())
+        );
     }
 
     #[test]

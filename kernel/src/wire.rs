@@ -57,11 +57,17 @@ pub struct Message {
 impl Message {
     /// The header's msg_type.
     pub fn msg_type(&self) -> &str {
-        self.header.get("msg_type").and_then(Value::as_str).unwrap_or("")
+        self.header
+            .get("msg_type")
+            .and_then(Value::as_str)
+            .unwrap_or("")
     }
     /// The header's msg_id.
     pub fn msg_id(&self) -> &str {
-        self.header.get("msg_id").and_then(Value::as_str).unwrap_or("")
+        self.header
+            .get("msg_id")
+            .and_then(Value::as_str)
+            .unwrap_or("")
     }
 }
 
@@ -74,11 +80,17 @@ pub struct Signer {
 impl Signer {
     /// A signer for `key`; an empty key means unsigned messages.
     pub fn new(key: &str) -> Signer {
-        Signer { key: key.as_bytes().to_vec() }
+        Signer {
+            key: key.as_bytes().to_vec(),
+        }
     }
 
     fn mac(&self) -> Option<Hmac<Sha256>> {
-        if self.key.is_empty() { None } else { Hmac::<Sha256>::new_from_slice(&self.key).ok() }
+        if self.key.is_empty() {
+            None
+        } else {
+            Hmac::<Sha256>::new_from_slice(&self.key).ok()
+        }
     }
 
     /// The hex signature of four JSON frames ("" when unsigned).
@@ -99,7 +111,9 @@ impl Signer {
         match self.mac() {
             None => true,
             Some(mut m) => {
-                let Ok(sig) = hex::decode(signature) else { return false };
+                let Ok(sig) = hex::decode(signature) else {
+                    return false;
+                };
                 for p in parts {
                     m.update(p);
                 }
@@ -110,12 +124,20 @@ impl Signer {
 
     /// Verifies, then parses, incoming frames.
     pub fn decode(&self, frames: &[Vec<u8>]) -> Result<Message, WireError> {
-        let d = frames.iter().position(|f| f.as_slice() == DELIMITER).ok_or(WireError::NoDelimiter)?;
+        let d = frames
+            .iter()
+            .position(|f| f.as_slice() == DELIMITER)
+            .ok_or(WireError::NoDelimiter)?;
         let rest = &frames[d + 1..];
         if rest.len() < 5 {
             return Err(WireError::TooFewFrames(rest.len()));
         }
-        let parts = [rest[1].as_slice(), rest[2].as_slice(), rest[3].as_slice(), rest[4].as_slice()];
+        let parts = [
+            rest[1].as_slice(),
+            rest[2].as_slice(),
+            rest[3].as_slice(),
+            rest[4].as_slice(),
+        ];
         if !self.verify(&rest[0], parts) {
             return Err(WireError::BadSignature);
         }
@@ -166,7 +188,10 @@ mod tests {
 
     fn msg() -> Message {
         let Value::Object(header) = json!({"msg_id": "1", "msg_type": "execute_request", "session": "s",
-            "username": "u", "date": "2026-01-01T00:00:00Z", "version": "5.3"}) else { unreachable!() };
+            "username": "u", "date": "2026-01-01T00:00:00Z", "version": "5.3"})
+        else {
+            unreachable!()
+        };
         Message {
             identities: vec![b"peer".to_vec()],
             header,
@@ -221,9 +246,23 @@ mod tests {
     #[test]
     fn malformed_json_is_dropped_after_verification() {
         let s = Signer::new("");
-        let frames = vec![DELIMITER.to_vec(), vec![], b"{".to_vec(), b"{}".to_vec(), b"{}".to_vec(), b"{}".to_vec()];
+        let frames = vec![
+            DELIMITER.to_vec(),
+            vec![],
+            b"{".to_vec(),
+            b"{}".to_vec(),
+            b"{}".to_vec(),
+            b"{}".to_vec(),
+        ];
         assert!(matches!(s.decode(&frames), Err(WireError::BadJson(_))));
-        let frames = vec![DELIMITER.to_vec(), vec![], b"{}".to_vec(), b"{}".to_vec(), b"{}".to_vec(), b"{}".to_vec()];
+        let frames = vec![
+            DELIMITER.to_vec(),
+            vec![],
+            b"{}".to_vec(),
+            b"{}".to_vec(),
+            b"{}".to_vec(),
+            b"{}".to_vec(),
+        ];
         assert!(matches!(s.decode(&frames), Err(WireError::BadJson(_))));
     }
 

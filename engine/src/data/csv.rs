@@ -34,14 +34,24 @@ pub struct ReadOptions {
 impl ReadOptions {
     /// The defaults: header on line 1, separator detected.
     pub fn new() -> ReadOptions {
-        ReadOptions { header: 1, ..Default::default() }
+        ReadOptions {
+            header: 1,
+            ..Default::default()
+        }
     }
 }
 
 /// Reads `path` into a dataset named `name`.
-pub fn read_file(path: &std::path::Path, shown: &str, name: &str, opts: &ReadOptions) -> Result<Dataset, CellError> {
+pub fn read_file(
+    path: &std::path::Path,
+    shown: &str,
+    name: &str,
+    opts: &ReadOptions,
+) -> Result<Dataset, CellError> {
     if path.is_dir() {
-        return Err(CellError::data(format!("\"{shown}\" is a folder, not a file; give the path of a .csv or .tsv file")));
+        return Err(CellError::data(format!(
+            "\"{shown}\" is a folder, not a file; give the path of a .csv or .tsv file"
+        )));
     }
     let bytes = std::fs::read(path).map_err(|e| {
         let what = match e.kind() {
@@ -49,15 +59,23 @@ pub fn read_file(path: &std::path::Path, shown: &str, name: &str, opts: &ReadOpt
             std::io::ErrorKind::PermissionDenied => "permission to read it was refused".to_string(),
             _ => e.to_string(),
         };
-        let cwd = std::env::current_dir().map(|d| d.display().to_string()).unwrap_or_default();
-        CellError::data(format!("cannot read \"{shown}\": {what}"))
-            .note(format!("relative paths start from the working folder, {cwd}"))
+        let cwd = std::env::current_dir()
+            .map(|d| d.display().to_string())
+            .unwrap_or_default();
+        CellError::data(format!("cannot read \"{shown}\": {what}")).note(format!(
+            "relative paths start from the working folder, {cwd}"
+        ))
     })?;
     parse_bytes(&bytes, shown, name, opts)
 }
 
 /// Parses file contents (used by [`read_file`] and by tests).
-pub fn parse_bytes(bytes: &[u8], shown: &str, name: &str, opts: &ReadOptions) -> Result<Dataset, CellError> {
+pub fn parse_bytes(
+    bytes: &[u8],
+    shown: &str,
+    name: &str,
+    opts: &ReadOptions,
+) -> Result<Dataset, CellError> {
     let sha256 = hex::encode(Sha256::digest(bytes));
     let text = std::str::from_utf8(bytes).map_err(|e| {
         let at = e.valid_up_to();
@@ -70,7 +88,9 @@ pub fn parse_bytes(bytes: &[u8], shown: &str, name: &str, opts: &ReadOptions) ->
     })?;
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
     if text.trim().is_empty() {
-        return Err(CellError::data(format!("\"{shown}\" is empty: there is no header and no data")));
+        return Err(CellError::data(format!(
+            "\"{shown}\" is empty: there is no header and no data"
+        )));
     }
     // Skip the lines before the header (1-based line numbers throughout).
     let skip = opts.header.saturating_sub(1);
@@ -88,7 +108,9 @@ pub fn parse_bytes(bytes: &[u8], shown: &str, name: &str, opts: &ReadOptions) ->
     }
     let body = &text[offset..];
     let first_line = body.lines().find(|l| !l.trim().is_empty()).unwrap_or("");
-    let delimiter = opts.delimiter.unwrap_or_else(|| detect_delimiter(first_line));
+    let delimiter = opts
+        .delimiter
+        .unwrap_or_else(|| detect_delimiter(first_line));
     let mut reader = ::csv::ReaderBuilder::new()
         .has_headers(false)
         .flexible(true)
@@ -101,10 +123,19 @@ pub fn parse_bytes(bytes: &[u8], shown: &str, name: &str, opts: &ReadOptions) ->
     let mut counter = LineCounter::default();
     for rec in reader.records() {
         let rec = rec.map_err(|e| {
-            let line = e.position().map(|p| line_of(body, p.byte() as usize) + skip).unwrap_or(0);
-            CellError::data(format!("\"{shown}\" line {line} cannot be read as delimited text: {e}"))
+            let line = e
+                .position()
+                .map(|p| line_of(body, p.byte() as usize) + skip)
+                .unwrap_or(0);
+            CellError::data(format!(
+                "\"{shown}\" line {line} cannot be read as delimited text: {e}"
+            ))
         })?;
-        let line = rec.position().map(|p| counter.line_at(body, p.byte() as usize)).unwrap_or(0) + skip;
+        let line = rec
+            .position()
+            .map(|p| counter.line_at(body, p.byte() as usize))
+            .unwrap_or(0)
+            + skip;
         let mut fields: Vec<String> = rec.iter().map(str::to_string).collect();
         if fields.iter().all(|f| f.is_empty()) {
             continue;
@@ -157,14 +188,18 @@ pub fn parse_bytes(bytes: &[u8], shown: &str, name: &str, opts: &ReadOptions) ->
             .note("give every column a name in the header row"));
         }
         if names[..i].contains(n) {
-            return Err(CellError::data(format!("\"{shown}\" has two columns named \"{n}\"; rename one in the header")));
+            return Err(CellError::data(format!(
+                "\"{shown}\" has two columns named \"{n}\"; rename one in the header"
+            )));
         }
     }
     for f in &opts.factors {
         if !names.contains(f) {
-            return Err(CellError::input(format!("`factor {f}`: \"{shown}\" has no column \"{f}\""))
-                .suggest(crate::error::nearest(f, names.iter().map(String::as_str)))
-                .note(format!("columns: {}", names.join(", "))));
+            return Err(CellError::input(format!(
+                "`factor {f}`: \"{shown}\" has no column \"{f}\""
+            ))
+            .suggest(crate::error::nearest(f, names.iter().map(String::as_str)))
+            .note(format!("columns: {}", names.join(", "))));
         }
     }
     let mut columns = Vec::with_capacity(names.len());
@@ -173,7 +208,8 @@ pub fn parse_bytes(bytes: &[u8], shown: &str, name: &str, opts: &ReadOptions) ->
             .iter()
             .map(|r| {
                 let v = &r[j];
-                let missing = v.is_empty() || v == "NA" || v == "." || opts.missing.iter().any(|m| m == v);
+                let missing =
+                    v.is_empty() || v == "NA" || v == "." || opts.missing.iter().any(|m| m == v);
                 (!missing).then(|| v.clone())
             })
             .collect();
@@ -193,7 +229,11 @@ pub fn parse_bytes(bytes: &[u8], shown: &str, name: &str, opts: &ReadOptions) ->
                 Numeric::No => ColumnData::Factor(FactorColumn::from_texts(&cells)),
             }
         };
-        columns.push(Column { name: name.clone(), label: None, data });
+        columns.push(Column {
+            name: name.clone(),
+            label: None,
+            data,
+        });
     }
     Ok(Dataset {
         name: name.to_string(),
@@ -209,8 +249,16 @@ pub fn parse_bytes(bytes: &[u8], shown: &str, name: &str, opts: &ReadOptions) ->
 /// The 1-based line of byte `at` in `text`.
 fn line_of(text: &str, at: usize) -> usize {
     // After a CRLF the reader's position can point at the LF that ends the previous line.
-    let at = if text.as_bytes().get(at) == Some(&b'\n') { at + 1 } else { at };
-    text.as_bytes()[..at.min(text.len())].iter().filter(|&&b| b == b'\n').count() + 1
+    let at = if text.as_bytes().get(at) == Some(&b'\n') {
+        at + 1
+    } else {
+        at
+    };
+    text.as_bytes()[..at.min(text.len())]
+        .iter()
+        .filter(|&&b| b == b'\n')
+        .count()
+        + 1
 }
 
 /// Line numbers of increasing byte offsets, counted incrementally (linear in the file size).
@@ -223,7 +271,12 @@ struct LineCounter {
 impl LineCounter {
     fn line_at(&mut self, text: &str, at: usize) -> usize {
         let b = text.as_bytes();
-        let at = if b.get(at) == Some(&b'\n') { at + 1 } else { at }.min(b.len());
+        let at = if b.get(at) == Some(&b'\n') {
+            at + 1
+        } else {
+            at
+        }
+        .min(b.len());
         if at < self.at {
             return line_of(text, at);
         }
@@ -240,7 +293,13 @@ enum Numeric {
 }
 
 fn numeric(cells: &[Option<String>], decimal_comma: bool) -> Numeric {
-    let norm = |s: &str| if decimal_comma { s.replace(',', ".") } else { s.to_string() };
+    let norm = |s: &str| {
+        if decimal_comma {
+            s.replace(',', ".")
+        } else {
+            s.to_string()
+        }
+    };
     let mut values = Vec::with_capacity(cells.len());
     let mut not_finite = None;
     let mut any = false;
@@ -261,7 +320,11 @@ fn numeric(cells: &[Option<String>], decimal_comma: bool) -> Numeric {
         }
     }
     if let Some(i) = not_finite {
-        return if any { Numeric::NotFinite(i) } else { Numeric::No };
+        return if any {
+            Numeric::NotFinite(i)
+        } else {
+            Numeric::No
+        };
     }
     if !any {
         return Numeric::No;
@@ -271,7 +334,12 @@ fn numeric(cells: &[Option<String>], decimal_comma: bool) -> Numeric {
     let offset_dec = first.as_deref().and_then(parse_decimal).map(integer_part);
     let offset = match offset_dec {
         Some(o) => o as f64,
-        None => values.iter().copied().find(|v| !v.is_nan()).unwrap_or(0.0).trunc(),
+        None => values
+            .iter()
+            .copied()
+            .find(|v| !v.is_nan())
+            .unwrap_or(0.0)
+            .trunc(),
     };
     let shifted_vals = cells
         .iter()
@@ -284,8 +352,16 @@ fn numeric(cells: &[Option<String>], decimal_comma: bool) -> Numeric {
             },
         })
         .collect();
-    let raw = cells.iter().map(|c| c.clone().unwrap_or_default()).collect();
-    Numeric::Yes(NumericColumn { values, offset, shifted: shifted_vals, raw })
+    let raw = cells
+        .iter()
+        .map(|c| c.clone().unwrap_or_default())
+        .collect();
+    Numeric::Yes(NumericColumn {
+        values,
+        offset,
+        shifted: shifted_vals,
+        raw,
+    })
 }
 
 /// The separator among `,` `;` tab that occurs most often outside quotes in `line`.
@@ -335,7 +411,10 @@ mod tests {
     #[test]
     fn ragged_row_names_its_line() {
         let e = parse("a,b\n1,2\n3\n").unwrap_err();
-        assert_eq!(e.message, "\"t.csv\" line 3 has 1 fields but the header has 2");
+        assert_eq!(
+            e.message,
+            "\"t.csv\" line 3 has 1 fields but the header has 2"
+        );
     }
 
     #[test]
@@ -359,7 +438,10 @@ mod tests {
     #[test]
     fn nan_and_inf_are_refused_with_line() {
         let e = parse("y\n1\nNaN\n").unwrap_err();
-        assert_eq!(e.message, "column \"y\" line 3: the value \"NaN\" is not a finite number");
+        assert_eq!(
+            e.message,
+            "column \"y\" line 3: the value \"NaN\" is not a finite number"
+        );
         assert!(parse("y\n1\ninf\n").is_err());
     }
 
@@ -378,7 +460,13 @@ mod tests {
     fn header_line_option_skips_a_preamble() {
         let mut o = ReadOptions::new();
         o.header = 3;
-        let d = parse_bytes(b"Plate reader v2\nrun 7\nwell,od\nA1,0.5\n", "t.csv", "t", &o).unwrap();
+        let d = parse_bytes(
+            b"Plate reader v2\nrun 7\nwell,od\nA1,0.5\n",
+            "t.csv",
+            "t",
+            &o,
+        )
+        .unwrap();
         assert_eq!(d.column_names().collect::<Vec<_>>(), ["well", "od"]);
         assert_eq!(d.lines, [4]);
     }
@@ -389,13 +477,25 @@ mod tests {
         o.decimal_comma = true;
         o.delimiter = Some(b';');
         let d = parse_bytes(b"y;g\n1,5;a\n2,25;b\n", "t.csv", "t", &o).unwrap();
-        let ColumnData::Numeric(n) = &d.column("y").unwrap().data else { panic!() };
+        let ColumnData::Numeric(n) = &d.column("y").unwrap().data else {
+            panic!()
+        };
         assert_eq!(n.values, [1.5, 2.25]);
     }
 
     #[test]
     fn blank_and_duplicate_names() {
-        assert!(parse("a,,b\n1,2,3\n").unwrap_err().message.contains("column 2"));
-        assert!(parse("a,a\n1,2\n").unwrap_err().message.contains("two columns named"));
+        assert!(
+            parse("a,,b\n1,2,3\n")
+                .unwrap_err()
+                .message
+                .contains("column 2")
+        );
+        assert!(
+            parse("a,a\n1,2\n")
+                .unwrap_err()
+                .message
+                .contains("two columns named")
+        );
     }
 }

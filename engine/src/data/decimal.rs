@@ -43,7 +43,10 @@ pub fn parse_decimal(s: &str) -> Option<Decimal> {
     for b in int.bytes().chain(frac.bytes()) {
         m = m * 10 + i128::from(b - b'0');
     }
-    Some(Decimal { mantissa: if neg { -m } else { m }, scale: frac.len() as u32 })
+    Some(Decimal {
+        mantissa: if neg { -m } else { m },
+        scale: frac.len() as u32,
+    })
 }
 
 /// `d − offset`, computed exactly in decimal and then rounded once to f64.
@@ -69,8 +72,20 @@ mod tests {
 
     #[test]
     fn parses_plain_decimals_exactly() {
-        assert_eq!(parse_decimal("-12.50"), Some(Decimal { mantissa: -1250, scale: 2 }));
-        assert_eq!(parse_decimal(".5"), Some(Decimal { mantissa: 5, scale: 1 }));
+        assert_eq!(
+            parse_decimal("-12.50"),
+            Some(Decimal {
+                mantissa: -1250,
+                scale: 2
+            })
+        );
+        assert_eq!(
+            parse_decimal(".5"),
+            Some(Decimal {
+                mantissa: 5,
+                scale: 1
+            })
+        );
         assert_eq!(parse_decimal("1e3"), None);
         assert_eq!(parse_decimal("."), None);
     }

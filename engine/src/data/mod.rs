@@ -85,7 +85,11 @@ impl Column {
             ColumnData::Numeric(n) => n.raw[i].clone(),
             ColumnData::Factor(f) => {
                 let c = f.codes[i];
-                if c == MISSING { String::new() } else { f.levels[c as usize].clone() }
+                if c == MISSING {
+                    String::new()
+                } else {
+                    f.levels[c as usize].clone()
+                }
             }
         }
     }
@@ -168,8 +172,11 @@ mod tests {
 
     #[test]
     fn factor_levels_follow_first_appearance_and_reorder() {
-        let t: Vec<Option<String>> =
-            ["b", "a", "b", "c"].iter().map(|s| Some(s.to_string())).chain([None]).collect();
+        let t: Vec<Option<String>> = ["b", "a", "b", "c"]
+            .iter()
+            .map(|s| Some(s.to_string()))
+            .chain([None])
+            .collect();
         let mut f = FactorColumn::from_texts(&t);
         assert_eq!(f.levels, ["b", "a", "c"]);
         assert_eq!(f.codes, [0, 1, 0, 2, MISSING]);

@@ -121,8 +121,11 @@ pub enum PlotKind {
 
 impl PlotKind {
     /// Every kind with its word.
-    pub const ALL: [(&'static str, PlotKind); 3] =
-        [("means", PlotKind::Means), ("box", PlotKind::Box), ("points", PlotKind::Points)];
+    pub const ALL: [(&'static str, PlotKind); 3] = [
+        ("means", PlotKind::Means),
+        ("box", PlotKind::Box),
+        ("points", PlotKind::Points),
+    ];
     /// The word.
     pub fn word(self) -> &'static str {
         match self {

@@ -76,10 +76,25 @@ pub fn lex(src: &str) -> Result<(Vec<Token>, LexEnd), CellError> {
         match c {
             '\n' => {
                 i += 1;
-                let continued = matches!(toks.last(), Some(Token { kind: Tok::Comma, .. }));
-                let already = matches!(toks.last(), None | Some(Token { kind: Tok::Newline, .. }));
+                let continued = matches!(
+                    toks.last(),
+                    Some(Token {
+                        kind: Tok::Comma,
+                        ..
+                    })
+                );
+                let already = matches!(
+                    toks.last(),
+                    None | Some(Token {
+                        kind: Tok::Newline,
+                        ..
+                    })
+                );
                 if !continued && !already {
-                    toks.push(Token { kind: Tok::Newline, span: Span::new(start, i) });
+                    toks.push(Token {
+                        kind: Tok::Newline,
+                        span: Span::new(start, i),
+                    });
                 }
             }
             c if c.is_whitespace() => i += c.len_utf8(),
@@ -120,18 +135,27 @@ pub fn lex(src: &str) -> Result<(Vec<Token>, LexEnd), CellError> {
                     )
                     .note("close the string with \" on the same line"));
                 }
-                toks.push(Token { kind: Tok::Str(s), span: Span::new(start, i) });
+                toks.push(Token {
+                    kind: Tok::Str(s),
+                    span: Span::new(start, i),
+                });
             }
             ',' => push1(&mut toks, Tok::Comma, &mut i),
             '(' => push1(&mut toks, Tok::LParen, &mut i),
             ')' => push1(&mut toks, Tok::RParen, &mut i),
             '=' => {
                 i += if src[i..].starts_with("==") { 2 } else { 1 };
-                toks.push(Token { kind: Tok::Op("="), span: Span::new(start, i) });
+                toks.push(Token {
+                    kind: Tok::Op("="),
+                    span: Span::new(start, i),
+                });
             }
             '!' if src[i..].starts_with("!=") => {
                 i += 2;
-                toks.push(Token { kind: Tok::Op("!="), span: Span::new(start, i) });
+                toks.push(Token {
+                    kind: Tok::Op("!="),
+                    span: Span::new(start, i),
+                });
             }
             '<' | '>' => {
                 let op = match (c, src[i + 1..].starts_with('=')) {
@@ -141,7 +165,10 @@ pub fn lex(src: &str) -> Result<(Vec<Token>, LexEnd), CellError> {
                     _ => ">",
                 };
                 i += op.len();
-                toks.push(Token { kind: Tok::Op(op), span: Span::new(start, i) });
+                toks.push(Token {
+                    kind: Tok::Op(op),
+                    span: Span::new(start, i),
+                });
             }
             c if c.is_ascii_digit()
                 || ((c == '-' || c == '+' || c == '.')
@@ -163,8 +190,10 @@ pub fn lex(src: &str) -> Result<(Vec<Token>, LexEnd), CellError> {
                 }
                 let text = &src[start..i];
                 match text.parse::<f64>() {
-                    Ok(v) => toks
-                        .push(Token { kind: Tok::Num(v, text.to_string()), span: Span::new(start, i) }),
+                    Ok(v) => toks.push(Token {
+                        kind: Tok::Num(v, text.to_string()),
+                        span: Span::new(start, i),
+                    }),
                     Err(_) => {
                         return Err(CellError::syntax(
                             Span::new(start, i),
@@ -183,7 +212,10 @@ pub fn lex(src: &str) -> Result<(Vec<Token>, LexEnd), CellError> {
                         break;
                     }
                 }
-                toks.push(Token { kind: Tok::Word(src[start..i].to_string()), span: Span::new(start, i) });
+                toks.push(Token {
+                    kind: Tok::Word(src[start..i].to_string()),
+                    span: Span::new(start, i),
+                });
             }
             other => {
                 return Err(CellError::syntax(
@@ -194,19 +226,34 @@ pub fn lex(src: &str) -> Result<(Vec<Token>, LexEnd), CellError> {
             }
         }
     }
-    let end = if matches!(toks.last(), Some(Token { kind: Tok::Comma, .. })) {
+    let end = if matches!(
+        toks.last(),
+        Some(Token {
+            kind: Tok::Comma,
+            ..
+        })
+    ) {
         LexEnd::Continued
     } else {
         LexEnd::Clean
     };
-    while matches!(toks.last(), Some(Token { kind: Tok::Newline, .. })) {
+    while matches!(
+        toks.last(),
+        Some(Token {
+            kind: Tok::Newline,
+            ..
+        })
+    ) {
         toks.pop();
     }
     Ok((toks, end))
 }
 
 fn push1(toks: &mut Vec<Token>, kind: Tok, i: &mut usize) {
-    toks.push(Token { kind, span: Span::new(*i, *i + 1) });
+    toks.push(Token {
+        kind,
+        span: Span::new(*i, *i + 1),
+    });
     *i += 1;
 }
 
@@ -261,7 +308,11 @@ mod tests {
     fn dotted_column_reference() {
         assert_eq!(
             kinds("trial.feed"),
-            vec![Tok::Word("trial".into()), Tok::Dot, Tok::Word("feed".into())]
+            vec![
+                Tok::Word("trial".into()),
+                Tok::Dot,
+                Tok::Word("feed".into())
+            ]
         );
     }
 }

@@ -5,7 +5,9 @@ use super::lexer::{Tok, Token, lex};
 use crate::error::{CellError, Span, nearest};
 
 /// The verbs a cell may start a statement with (without the test-only `pause`).
-pub const VERBS: [&str; 8] = ["read", "show", "levels", "label", "describe", "anova", "plot", "help"];
+pub const VERBS: [&str; 8] = [
+    "read", "show", "levels", "label", "describe", "anova", "plot", "help",
+];
 
 /// Clause keywords after `across`.
 pub const CLAUSES: [&str; 4] = ["in", "subject", "where", "with"];
@@ -23,7 +25,11 @@ pub fn parse(src: &str) -> Result<Vec<Statement>, CellError> {
         if line.is_empty() {
             continue;
         }
-        let mut p = Parser { toks: line, pos: 0, end: line[line.len() - 1].span.end };
+        let mut p = Parser {
+            toks: line,
+            pos: 0,
+            end: line[line.len() - 1].span.end,
+        };
         out.push(p.statement()?);
     }
     Ok(out)
@@ -55,8 +61,14 @@ impl<'a> Parser<'a> {
     }
     fn unexpected(&self, wanted: &str) -> CellError {
         match self.peek() {
-            Some(t) => CellError::syntax(t.span, format!("expected {wanted}, found {}", t.kind.describe())),
-            None => CellError::syntax(self.eof_span(), format!("expected {wanted} at the end of the statement")),
+            Some(t) => CellError::syntax(
+                t.span,
+                format!("expected {wanted}, found {}", t.kind.describe()),
+            ),
+            None => CellError::syntax(
+                self.eof_span(),
+                format!("expected {wanted} at the end of the statement"),
+            ),
         }
     }
     fn expect_word(&mut self, w: &str) -> Result<Span, CellError> {
@@ -64,7 +76,10 @@ impl<'a> Parser<'a> {
             Ok(self.next().map(|t| t.span).unwrap_or_default())
         } else {
             let mut e = self.unexpected(&format!("`{w}`"));
-            if let Some(Token { kind: Tok::Word(x), .. }) = self.peek() {
+            if let Some(Token {
+                kind: Tok::Word(x), ..
+            }) = self.peek()
+            {
                 e = e.suggest(nearest(x, [w]));
             }
             Err(e)
@@ -73,7 +88,10 @@ impl<'a> Parser<'a> {
     /// A name: a bare word or a quoted string.
     fn name(&mut self, what: &str) -> Result<Name, CellError> {
         match self.peek() {
-            Some(Token { kind: Tok::Word(w) | Tok::Str(w), span }) => {
+            Some(Token {
+                kind: Tok::Word(w) | Tok::Str(w),
+                span,
+            }) => {
                 self.pos += 1;
                 Ok(Spanned::new(w.clone(), *span))
             }
@@ -82,7 +100,10 @@ impl<'a> Parser<'a> {
     }
     fn string(&mut self, what: &str) -> Result<Spanned<String>, CellError> {
         match self.peek() {
-            Some(Token { kind: Tok::Str(s), span }) => {
+            Some(Token {
+                kind: Tok::Str(s),
+                span,
+            }) => {
                 self.pos += 1;
                 Ok(Spanned::new(s.clone(), *span))
             }
@@ -90,7 +111,11 @@ impl<'a> Parser<'a> {
         }
     }
     fn finish(&self) -> Result<(), CellError> {
-        if self.at_end() { Ok(()) } else { Err(self.unexpected("the end of the statement")) }
+        if self.at_end() {
+            Ok(())
+        } else {
+            Err(self.unexpected("the end of the statement"))
+        }
     }
 
     fn statement(&mut self) -> Result<Statement, CellError> {
@@ -101,7 +126,10 @@ impl<'a> Parser<'a> {
             _ => {
                 return Err(CellError::syntax(
                     first.span,
-                    format!("a statement starts with a verb, not {}", first.kind.describe()),
+                    format!(
+                        "a statement starts with a verb, not {}",
+                        first.kind.describe()
+                    ),
                 )
                 .note(format!("verbs: {}", VERBS.join(", "))));
             }
@@ -114,7 +142,11 @@ impl<'a> Parser<'a> {
                 self.expect_word("as")?;
                 let name = self.name("a name for the dataset")?;
                 let options = self.options()?;
-                StmtKind::Read { path, name, options }
+                StmtKind::Read {
+                    path,
+                    name,
+                    options,
+                }
             }
             "show" => {
                 let name = self.name("the name of a dataset")?;
@@ -124,7 +156,13 @@ impl<'a> Parser<'a> {
             "levels" => {
                 let target = self.column_ref()?;
                 let mut order = vec![self.level_text()?];
-                while matches!(self.peek(), Some(Token { kind: Tok::Comma, .. })) {
+                while matches!(
+                    self.peek(),
+                    Some(Token {
+                        kind: Tok::Comma,
+                        ..
+                    })
+                ) {
                     self.pos += 1;
                     order.push(self.level_text()?);
                 }
@@ -149,35 +187,56 @@ impl<'a> Parser<'a> {
                             format!("`{}` is not a figure kind", kind_tok.value),
                         )
                         .note("figure kinds: means, box, points")
-                        .suggest(nearest(&kind_tok.value, PlotKind::ALL.iter().map(|(w, _)| *w)))
+                        .suggest(nearest(
+                            &kind_tok.value,
+                            PlotKind::ALL.iter().map(|(w, _)| *w),
+                        ))
                     })?;
                 StmtKind::Analysis(self.analysis(Verb::Plot(kind), verb_span)?)
             }
             "help" => {
-                let topic = if self.at_end() { None } else { Some(self.name("a verb")?) };
+                let topic = if self.at_end() {
+                    None
+                } else {
+                    Some(self.name("a verb")?)
+                };
                 StmtKind::Help { topic }
             }
             "pause" if pause_enabled() => match self.next() {
-                Some(Token { kind: Tok::Num(v, _), span }) => {
-                    StmtKind::Pause { seconds: Spanned::new(*v, *span) }
-                }
+                Some(Token {
+                    kind: Tok::Num(v, _),
+                    span,
+                }) => StmtKind::Pause {
+                    seconds: Spanned::new(*v, *span),
+                },
                 _ => return Err(self.unexpected("a number of seconds")),
             },
             other => {
-                return Err(CellError::syntax(verb_span, format!("`{other}` is not a verb"))
-                    .note(format!("verbs: {}", VERBS.join(", ")))
-                    .suggest(nearest(other, VERBS)));
+                return Err(
+                    CellError::syntax(verb_span, format!("`{other}` is not a verb"))
+                        .note(format!("verbs: {}", VERBS.join(", ")))
+                        .suggest(nearest(other, VERBS)),
+                );
             }
         };
         self.finish()?;
         let end = self.toks.last().map(|t| t.span.end).unwrap_or(start);
-        Ok(Statement { span: Span::new(start, end), kind })
+        Ok(Statement {
+            span: Span::new(start, end),
+            kind,
+        })
     }
 
     fn level_text(&mut self) -> Result<Spanned<String>, CellError> {
         match self.next() {
-            Some(Token { kind: Tok::Str(s) | Tok::Word(s), span }) => Ok(Spanned::new(s.clone(), *span)),
-            Some(Token { kind: Tok::Num(_, t), span }) => Ok(Spanned::new(t.clone(), *span)),
+            Some(Token {
+                kind: Tok::Str(s) | Tok::Word(s),
+                span,
+            }) => Ok(Spanned::new(s.clone(), *span)),
+            Some(Token {
+                kind: Tok::Num(_, t),
+                span,
+            }) => Ok(Spanned::new(t.clone(), *span)),
             _ => {
                 self.pos = self.pos.saturating_sub(1);
                 Err(self.unexpected("a level in double quotes"))
@@ -190,9 +249,15 @@ impl<'a> Parser<'a> {
         if matches!(self.peek(), Some(Token { kind: Tok::Dot, .. })) {
             self.pos += 1;
             let column = self.name("a column name after the dot")?;
-            Ok(ColumnRef { dataset: Some(first), column })
+            Ok(ColumnRef {
+                dataset: Some(first),
+                column,
+            })
         } else {
-            Ok(ColumnRef { dataset: None, column: first })
+            Ok(ColumnRef {
+                dataset: None,
+                column: first,
+            })
         }
     }
 
@@ -200,12 +265,22 @@ impl<'a> Parser<'a> {
         let response = self.name("the response column")?;
         if !self.peek_word("across") {
             let mut e = self.unexpected("`across` and the factor(s)");
-            e = e.note(format!("e.g. `{} {} across group`", verb.word(), response.value));
+            e = e.note(format!(
+                "e.g. `{} {} across group`",
+                verb.word(),
+                response.value
+            ));
             return Err(e);
         }
         self.pos += 1;
         let mut factors = vec![self.name("a factor column")?];
-        while matches!(self.peek(), Some(Token { kind: Tok::Comma, .. })) {
+        while matches!(
+            self.peek(),
+            Some(Token {
+                kind: Tok::Comma,
+                ..
+            })
+        ) {
             self.pos += 1;
             factors.push(self.name("a factor column after the comma")?);
         }
@@ -273,7 +348,10 @@ impl<'a> Parser<'a> {
         let mut opts = Vec::new();
         loop {
             let name = match self.peek() {
-                Some(Token { kind: Tok::Word(w), span }) => {
+                Some(Token {
+                    kind: Tok::Word(w),
+                    span,
+                }) => {
                     self.pos += 1;
                     Spanned::new(w.clone(), *span)
                 }
@@ -283,7 +361,10 @@ impl<'a> Parser<'a> {
             let mut end = name.span;
             loop {
                 match self.peek() {
-                    Some(Token { kind: Tok::Comma, .. }) | None => break,
+                    Some(Token {
+                        kind: Tok::Comma, ..
+                    })
+                    | None => break,
                     Some(Token { kind, span }) => {
                         let v = match kind {
                             Tok::Num(v, t) => Value::Num(*v, t.clone()),
@@ -297,8 +378,18 @@ impl<'a> Parser<'a> {
                     }
                 }
             }
-            opts.push(Opt { span: name.span.to(end), name, values });
-            if matches!(self.peek(), Some(Token { kind: Tok::Comma, .. })) {
+            opts.push(Opt {
+                span: name.span.to(end),
+                name,
+                values,
+            });
+            if matches!(
+                self.peek(),
+                Some(Token {
+                    kind: Tok::Comma,
+                    ..
+                })
+            ) {
                 self.pos += 1;
             } else {
                 break;
@@ -328,11 +419,19 @@ impl<'a> Parser<'a> {
     }
 
     fn atom(&mut self) -> Result<Expr, CellError> {
-        if matches!(self.peek(), Some(Token { kind: Tok::LParen, .. })) {
+        if matches!(
+            self.peek(),
+            Some(Token {
+                kind: Tok::LParen,
+                ..
+            })
+        ) {
             self.pos += 1;
             let e = self.or_expr()?;
             match self.next() {
-                Some(Token { kind: Tok::RParen, .. }) => return Ok(e),
+                Some(Token {
+                    kind: Tok::RParen, ..
+                }) => return Ok(e),
                 _ => {
                     self.pos = self.pos.saturating_sub(1);
                     return Err(self.unexpected("`)`"));
@@ -341,14 +440,21 @@ impl<'a> Parser<'a> {
         }
         let column = self.name("a column to compare")?;
         match self.next() {
-            Some(Token { kind: Tok::Op(op), span }) => {
+            Some(Token {
+                kind: Tok::Op(op),
+                span,
+            }) => {
                 let op = Spanned::new(*op, *span);
                 let value = self.value()?;
                 Ok(Expr::Compare { column, op, value })
             }
-            Some(Token { kind: Tok::Word(w), .. }) if w == "in" => {
+            Some(Token {
+                kind: Tok::Word(w), ..
+            }) if w == "in" => {
                 match self.next() {
-                    Some(Token { kind: Tok::LParen, .. }) => {}
+                    Some(Token {
+                        kind: Tok::LParen, ..
+                    }) => {}
                     _ => {
                         self.pos = self.pos.saturating_sub(1);
                         return Err(self.unexpected("`(` and a list of values"));
@@ -357,8 +463,12 @@ impl<'a> Parser<'a> {
                 let mut values = vec![self.value()?];
                 loop {
                     match self.next() {
-                        Some(Token { kind: Tok::Comma, .. }) => values.push(self.value()?),
-                        Some(Token { kind: Tok::RParen, .. }) => break,
+                        Some(Token {
+                            kind: Tok::Comma, ..
+                        }) => values.push(self.value()?),
+                        Some(Token {
+                            kind: Tok::RParen, ..
+                        }) => break,
                         _ => {
                             self.pos = self.pos.saturating_sub(1);
                             return Err(self.unexpected("`,` or `)`"));
@@ -376,9 +486,18 @@ impl<'a> Parser<'a> {
 
     fn value(&mut self) -> Result<Spanned<Value>, CellError> {
         match self.next() {
-            Some(Token { kind: Tok::Num(v, t), span }) => Ok(Spanned::new(Value::Num(*v, t.clone()), *span)),
-            Some(Token { kind: Tok::Str(s), span }) => Ok(Spanned::new(Value::Str(s.clone()), *span)),
-            Some(Token { kind: Tok::Word(w), span }) => Err(CellError::syntax(
+            Some(Token {
+                kind: Tok::Num(v, t),
+                span,
+            }) => Ok(Spanned::new(Value::Num(*v, t.clone()), *span)),
+            Some(Token {
+                kind: Tok::Str(s),
+                span,
+            }) => Ok(Spanned::new(Value::Str(s.clone()), *span)),
+            Some(Token {
+                kind: Tok::Word(w),
+                span,
+            }) => Err(CellError::syntax(
                 *span,
                 format!("`{w}` is not a value: put text in double quotes"),
             )
@@ -403,8 +522,11 @@ mod tests {
 
     #[test]
     fn read_with_options() {
-        let StmtKind::Read { path, name, options } =
-            one(r#"read "data/t.csv" as trial with factor dose block, missing ".""#)
+        let StmtKind::Read {
+            path,
+            name,
+            options,
+        } = one(r#"read "data/t.csv" as trial with factor dose block, missing ".""#)
         else {
             panic!("not a read")
         };
@@ -434,17 +556,31 @@ mod tests {
     fn continued_lines_and_comments() {
         let v = parse("# a comment\nanova y across a,\n  b\n\nshow t # trailing\n").unwrap();
         assert_eq!(v.len(), 2);
-        let StmtKind::Analysis(a) = &v[0].kind else { panic!() };
+        let StmtKind::Analysis(a) = &v[0].kind else {
+            panic!()
+        };
         assert_eq!(a.factors.len(), 2);
     }
 
     #[test]
     fn plot_kinds_and_levels_and_label() {
-        assert!(matches!(one("plot box y across g"), StmtKind::Analysis(Analysis { verb: Verb::Plot(PlotKind::Box), .. })));
-        let StmtKind::Levels { target, order } = one(r#"levels t.feed "low", "mid", "high""#) else { panic!() };
+        assert!(matches!(
+            one("plot box y across g"),
+            StmtKind::Analysis(Analysis {
+                verb: Verb::Plot(PlotKind::Box),
+                ..
+            })
+        ));
+        let StmtKind::Levels { target, order } = one(r#"levels t.feed "low", "mid", "high""#)
+        else {
+            panic!()
+        };
         assert_eq!(target.dataset.unwrap().value, "t");
         assert_eq!(order.len(), 3);
-        assert!(matches!(one(r#"label t.w "Weight (g)""#), StmtKind::Label { .. }));
+        assert!(matches!(
+            one(r#"label t.w "Weight (g)""#),
+            StmtKind::Label { .. }
+        ));
     }
 
     #[test]
@@ -457,7 +593,10 @@ mod tests {
     #[test]
     fn missing_across_is_reported_at_the_token() {
         let e = parse("anova weight feed").unwrap_err();
-        assert_eq!(e.message, "expected `across` and the factor(s), found `feed`");
+        assert_eq!(
+            e.message,
+            "expected `across` and the factor(s), found `feed`"
+        );
         assert_eq!(e.span, Some(Span::new(13, 17)));
     }
 

@@ -31,7 +31,12 @@ pub struct CellSummary {
 }
 
 /// Summarises `shifted` values (offset added back to the mean) at confidence `level`.
-pub fn summarise(levels: BTreeMap<String, String>, shifted: &[f64], offset: f64, level: f64) -> CellSummary {
+pub fn summarise(
+    levels: BTreeMap<String, String>,
+    shifted: &[f64],
+    offset: f64,
+    level: f64,
+) -> CellSummary {
     let n = shifted.len();
     let m = mean(shifted);
     let (sd, se, lo, hi) = if n >= 2 {
@@ -44,7 +49,15 @@ pub fn summarise(levels: BTreeMap<String, String>, shifted: &[f64], offset: f64,
     } else {
         (None, None, None, None)
     };
-    CellSummary { levels, n, mean: offset + m, sd, se, ci_low: lo, ci_high: hi }
+    CellSummary {
+        levels,
+        n,
+        mean: offset + m,
+        sd,
+        se,
+        ci_low: lo,
+        ci_high: hi,
+    }
 }
 
 #[cfg(test)]

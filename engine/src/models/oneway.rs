@@ -100,7 +100,10 @@ pub fn oneway(effect: &str, groups: &[Vec<f64>]) -> Result<OneWay, CellError> {
     let all: Vec<f64> = groups.iter().flat_map(|g| g.iter().copied()).collect();
     let grand = mean(&all);
     let means: Vec<f64> = groups.iter().map(|g| mean(g)).collect();
-    let ss_b = sum(groups.iter().zip(&means).map(|(g, m)| g.len() as f64 * (m - grand) * (m - grand))); // (1)
+    let ss_b = sum(groups
+        .iter()
+        .zip(&means)
+        .map(|(g, m)| g.len() as f64 * (m - grand) * (m - grand))); // (1)
     let ss_w = sum(groups.iter().zip(&means).map(|(g, &m)| centred_ss(g, m))); // (2)
     let ss_t = centred_ss(&all, grand); // (3)
     if ss_t == 0.0 {
@@ -204,9 +207,24 @@ mod tests {
 
     #[test]
     fn degenerate_inputs() {
-        assert!(oneway("g", &[vec![1.0, 2.0]]).unwrap_err().message.contains("at least two"));
-        assert!(oneway("g", &[vec![1.0], vec![2.0]]).unwrap_err().message.contains("no residual"));
-        assert!(oneway("g", &[vec![3.0, 3.0], vec![3.0]]).unwrap_err().message.contains("no variation"));
+        assert!(
+            oneway("g", &[vec![1.0, 2.0]])
+                .unwrap_err()
+                .message
+                .contains("at least two")
+        );
+        assert!(
+            oneway("g", &[vec![1.0], vec![2.0]])
+                .unwrap_err()
+                .message
+                .contains("no residual")
+        );
+        assert!(
+            oneway("g", &[vec![3.0, 3.0], vec![3.0]])
+                .unwrap_err()
+                .message
+                .contains("no variation")
+        );
         let r = oneway("g", &[vec![1.0, 1.0], vec![2.0, 2.0]]).unwrap();
         assert_eq!(r.effect().f, None);
         assert_eq!(r.effect().p, None);

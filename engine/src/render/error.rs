@@ -23,13 +23,22 @@ pub fn traceback(e: &CellError, src: &str) -> Vec<String> {
     if let Some(sp) = e.span {
         let (l, c) = line_col(src, sp.start);
         let line = src.lines().nth(l - 1).unwrap_or("");
-        let width = src.get(sp.start..sp.end.min(src.len())).map(|s| s.chars().count()).unwrap_or(1).max(1);
+        let width = src
+            .get(sp.start..sp.end.min(src.len()))
+            .map(|s| s.chars().count())
+            .unwrap_or(1)
+            .max(1);
         let width = width.min(line.chars().count().saturating_sub(c - 1).max(1));
         let gutter = l.to_string().len();
         out.push(format!("{:gutter$}--> line {l}, column {c}", ""));
         out.push(format!("{:gutter$} |", ""));
         out.push(format!("{l} | {line}"));
-        out.push(format!("{:gutter$} | {}{}", "", " ".repeat(c - 1), "^".repeat(width)));
+        out.push(format!(
+            "{:gutter$} | {}{}",
+            "",
+            " ".repeat(c - 1),
+            "^".repeat(width)
+        ));
     }
     if let Some(sug) = &e.suggestion {
         out.push(format!("did you mean `{sug}`?"));
@@ -47,7 +56,10 @@ mod tests {
 
     #[test]
     fn caret_under_the_token() {
-        let e = CellError::syntax(Span::new(13, 17), "expected `across` and the factor(s), found `feed`");
+        let e = CellError::syntax(
+            Span::new(13, 17),
+            "expected `across` and the factor(s), found `feed`",
+        );
         let src = "anova weight feed";
         assert_eq!(
             traceback(&e, src),
@@ -59,7 +71,10 @@ mod tests {
                 "  |              ^^^^",
             ]
         );
-        assert_eq!(evalue(&e, src), "line 1, column 14: expected `across` and the factor(s), found `feed`");
+        assert_eq!(
+            evalue(&e, src),
+            "line 1, column 14: expected `across` and the factor(s), found `feed`"
+        );
     }
 
     #[test]

@@ -26,12 +26,20 @@ pub fn num(x: f64) -> String {
 
 /// Degrees of freedom: whole numbers plainly, fractional ones with two decimals.
 pub fn df(x: f64) -> String {
-    if (x - x.round()).abs() < 1e-9 { format!("{}", x.round() as i64) } else { format!("{x:.2}") }
+    if (x - x.round()).abs() < 1e-9 {
+        format!("{}", x.round() as i64)
+    } else {
+        format!("{x:.2}")
+    }
 }
 
 /// p in a table: four decimals, or "< .0001".
 pub fn p_table(p: f64) -> String {
-    if p < 0.0001 { "< .0001".into() } else { strip_lead(&format!("{p:.4}")) }
+    if p < 0.0001 {
+        "< .0001".into()
+    } else {
+        strip_lead(&format!("{p:.4}"))
+    }
 }
 
 /// p in a report sentence: "p = .021", "p < .001".
@@ -56,7 +64,11 @@ pub fn es(x: f64) -> String {
 }
 
 fn trim_zeros(s: &str) -> String {
-    if s.contains('.') { s.trim_end_matches('0').trim_end_matches('.').to_string() } else { s.to_string() }
+    if s.contains('.') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s.to_string()
+    }
 }
 
 fn strip_lead(s: &str) -> String {

@@ -38,7 +38,13 @@ pub fn render(a: &Answer) -> String {
 
 /// One table.
 pub fn table(t: &DisplayTable) -> Markup {
-    let class = |j: usize| if t.columns.get(j).is_some_and(|c| c.1 == Align::Right) { "num" } else { "" };
+    let class = |j: usize| {
+        if t.columns.get(j).is_some_and(|c| c.1 == Align::Right) {
+            "num"
+        } else {
+            ""
+        }
+    };
     html! {
         table {
             @if !t.caption.is_empty() { caption { (t.caption) } }

@@ -49,7 +49,8 @@ pub struct Figure {
 
 /// Deterministic jitter in [−0.5, 0.5) for observation `i` of group `g`.
 fn jitter(g: usize, i: usize) -> f64 {
-    let mut h = (g as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15) ^ (i as u64).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    let mut h = (g as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15)
+        ^ (i as u64).wrapping_mul(0xBF58_476D_1CE4_E5B9);
     h ^= h >> 31;
     h = h.wrapping_mul(0x94D0_49BB_1331_11EB);
     h ^= h >> 29;
@@ -66,7 +67,10 @@ pub fn quantile(sorted: &[f64], q: f64) -> f64 {
 
 /// Escapes text for an SVG text node.
 fn esc(s: &str) -> String {
-    s.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;").replace('"', "&quot;")
+    s.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+        .replace('"', "&quot;")
 }
 
 /// Draws the figure; `None` if it cannot be drawn (the answer then says so in a note).
@@ -90,7 +94,11 @@ pub fn draw(fig: &Figure) -> Option<String> {
     if !lo.is_finite() || !hi.is_finite() {
         return None;
     }
-    let pad = if hi > lo { (hi - lo) * 0.08 } else { lo.abs().max(1.0) * 0.1 };
+    let pad = if hi > lo {
+        (hi - lo) * 0.08
+    } else {
+        lo.abs().max(1.0) * 0.1
+    };
     let (lo, hi) = (lo - pad, hi + pad);
     let names: Vec<String> = fig.groups.iter().map(|g| esc(&g.name)).collect();
     let mut buf = String::new();
@@ -121,11 +129,23 @@ pub fn draw(fig: &Figure) -> Option<String> {
         for (gi, g) in fig.groups.iter().enumerate() {
             let colour = PALETTE[gi % PALETTE.len()];
             let x0 = gi as f64;
-            let spread = if fig.kind == PlotKind::Points { 0.5 } else { 0.3 };
-            let shift = if fig.kind == PlotKind::Means { -0.12 } else { 0.0 };
+            let spread = if fig.kind == PlotKind::Points {
+                0.5
+            } else {
+                0.3
+            };
+            let shift = if fig.kind == PlotKind::Means {
+                -0.12
+            } else {
+                0.0
+            };
             chart
                 .draw_series(g.values.iter().enumerate().map(|(i, &v)| {
-                    Circle::new((x0 + shift + spread * jitter(gi, i), v), 3, colour.mix(0.55).filled())
+                    Circle::new(
+                        (x0 + shift + spread * jitter(gi, i), v),
+                        3,
+                        colour.mix(0.55).filled(),
+                    )
                 }))
                 .ok()?;
             match fig.kind {
@@ -133,15 +153,27 @@ pub fn draw(fig: &Figure) -> Option<String> {
                     let xm = x0 + 0.2;
                     if let Some((a, b)) = g.ci {
                         let s = BLACK.stroke_width(2);
-                        chart.draw_series(std::iter::once(PathElement::new(vec![(xm, a), (xm, b)], s))).ok()?;
+                        chart
+                            .draw_series(std::iter::once(PathElement::new(
+                                vec![(xm, a), (xm, b)],
+                                s,
+                            )))
+                            .ok()?;
                         for y in [a, b] {
                             chart
-                                .draw_series(std::iter::once(PathElement::new(vec![(xm - 0.05, y), (xm + 0.05, y)], s)))
+                                .draw_series(std::iter::once(PathElement::new(
+                                    vec![(xm - 0.05, y), (xm + 0.05, y)],
+                                    s,
+                                )))
                                 .ok()?;
                         }
                     }
                     chart
-                        .draw_series(std::iter::once(Circle::new((xm, g.mean), 5, BLACK.filled())))
+                        .draw_series(std::iter::once(Circle::new(
+                            (xm, g.mean),
+                            5,
+                            BLACK.filled(),
+                        )))
                         .ok()?;
                 }
                 PlotKind::Box => {
@@ -152,23 +184,51 @@ pub fn draw(fig: &Figure) -> Option<String> {
                     }
                     let (q1, q2, q3) = (quantile(&s, 0.25), quantile(&s, 0.5), quantile(&s, 0.75));
                     let iqr = q3 - q1;
-                    let wl = s.iter().copied().find(|&v| v >= q1 - 1.5 * iqr).unwrap_or(q1);
-                    let wh = s.iter().rev().copied().find(|&v| v <= q3 + 1.5 * iqr).unwrap_or(q3);
+                    let wl = s
+                        .iter()
+                        .copied()
+                        .find(|&v| v >= q1 - 1.5 * iqr)
+                        .unwrap_or(q1);
+                    let wh = s
+                        .iter()
+                        .rev()
+                        .copied()
+                        .find(|&v| v <= q3 + 1.5 * iqr)
+                        .unwrap_or(q3);
                     let st = BLACK.stroke_width(1);
                     let (xa, xb) = (x0 - 0.25, x0 + 0.25);
-                    chart.draw_series(std::iter::once(Rectangle::new([(xa, q1), (xb, q3)], st))).ok()?;
-                    chart.draw_series(std::iter::once(PathElement::new(vec![(xa, q2), (xb, q2)], BLACK.stroke_width(2)))).ok()?;
-                    chart.draw_series(std::iter::once(PathElement::new(vec![(x0, q3), (x0, wh)], st))).ok()?;
-                    chart.draw_series(std::iter::once(PathElement::new(vec![(x0, q1), (x0, wl)], st))).ok()?;
+                    chart
+                        .draw_series(std::iter::once(Rectangle::new([(xa, q1), (xb, q3)], st)))
+                        .ok()?;
+                    chart
+                        .draw_series(std::iter::once(PathElement::new(
+                            vec![(xa, q2), (xb, q2)],
+                            BLACK.stroke_width(2),
+                        )))
+                        .ok()?;
+                    chart
+                        .draw_series(std::iter::once(PathElement::new(
+                            vec![(x0, q3), (x0, wh)],
+                            st,
+                        )))
+                        .ok()?;
+                    chart
+                        .draw_series(std::iter::once(PathElement::new(
+                            vec![(x0, q1), (x0, wl)],
+                            st,
+                        )))
+                        .ok()?;
                 }
                 PlotKind::Points => {}
             }
         }
         // Level names under their groups (drawn directly: the x axis is positional).
-        let style = TextStyle::from(("sans-serif", 13).into_font()).pos(Pos::new(HPos::Center, VPos::Top));
+        let style =
+            TextStyle::from(("sans-serif", 13).into_font()).pos(Pos::new(HPos::Center, VPos::Top));
         for (i, n) in names.iter().enumerate() {
             let (px, py) = chart.backend_coord(&(i as f64, lo));
-            root.draw(&Text::new(n.clone(), (px, py + 6), style.clone())).ok()?;
+            root.draw(&Text::new(n.clone(), (px, py + 6), style.clone()))
+                .ok()?;
         }
         root.present().ok()?;
     }
@@ -183,8 +243,18 @@ mod tests {
         Figure {
             kind,
             groups: vec![
-                Group { name: name.into(), values: vec![1.0, 2.0, 3.0], mean: 2.0, ci: Some((0.5, 3.5)) },
-                Group { name: "b".into(), values: vec![2.0, 4.0], mean: 3.0, ci: None },
+                Group {
+                    name: name.into(),
+                    values: vec![1.0, 2.0, 3.0],
+                    mean: 2.0,
+                    ci: Some((0.5, 3.5)),
+                },
+                Group {
+                    name: "b".into(),
+                    values: vec![2.0, 4.0],
+                    mean: 3.0,
+                    ci: None,
+                },
             ],
             x_label: "feed".into(),
             y_label: "Weight (g)".into(),

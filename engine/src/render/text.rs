@@ -40,7 +40,11 @@ pub fn render(a: &Answer) -> String {
 /// "dataset trial (data/trial.csv, sha256 1a2b3c4d5e6f…), 60 rows used, read 2026-…"
 pub fn provenance_line(p: &super::Provenance) -> String {
     let short: String = p.sha256.chars().take(12).collect();
-    let dropped = if p.rows_dropped > 0 { format!(", {} set aside", p.rows_dropped) } else { String::new() };
+    let dropped = if p.rows_dropped > 0 {
+        format!(", {} set aside", p.rows_dropped)
+    } else {
+        String::new()
+    };
     format!(
         "dataset {} from {} (sha256 {short}…), {} rows used{dropped}, read {}",
         p.dataset, p.source, p.rows_used, p.read_at
@@ -68,14 +72,21 @@ pub fn table(t: &DisplayTable) -> String {
         out.push_str(&t.caption);
         out.push('\n');
     }
-    let head: Vec<String> = t.columns.iter().enumerate().map(|(j, (h, _))| cell(h, j)).collect();
+    let head: Vec<String> = t
+        .columns
+        .iter()
+        .enumerate()
+        .map(|(j, (h, _))| cell(h, j))
+        .collect();
     out.push_str(head.join("  ").trim_end());
     out.push('\n');
     let rule: Vec<String> = w.iter().map(|&n| "─".repeat(n)).collect();
     out.push_str(&rule.join("  "));
     out.push('\n');
     for r in &t.rows {
-        let cells: Vec<String> = (0..ncol).map(|j| cell(r.get(j).map(String::as_str).unwrap_or(""), j)).collect();
+        let cells: Vec<String> = (0..ncol)
+            .map(|j| cell(r.get(j).map(String::as_str).unwrap_or(""), j))
+            .collect();
         out.push_str(cells.join("  ").trim_end());
         out.push('\n');
     }
@@ -91,8 +102,14 @@ mod tests {
         let t = DisplayTable {
             caption: "cap".into(),
             columns: vec![("Source".into(), Align::Left), ("df".into(), Align::Right)],
-            rows: vec![vec!["feed".into(), "2".into()], vec!["Residual".into(), "57".into()]],
+            rows: vec![
+                vec!["feed".into(), "2".into()],
+                vec!["Residual".into(), "57".into()],
+            ],
         };
-        assert_eq!(table(&t), "cap\nSource    df\n────────  ──\nfeed       2\nResidual  57\n");
+        assert_eq!(
+            table(&t),
+            "cap\nSource    df\n────────  ──\nfeed       2\nResidual  57\n"
+        );
     }
 }

@@ -1,0 +1,128 @@
+"""Benchmark: cold start to the first kernel_info_reply, and the median round trip of a
+one-way ANOVA cell with its figure, for Partita and, as the anchor in the same run, for the
+reference Python kernel (ipykernel) running scipy's f_oneway and a matplotlib SVG figure.
+
+    python tests/bench/bench.py [--bin target/release/partita] [--smoke]
+
+Targets (issue 2): Partita cold start <= 50 ms, round-trip median <= 5 ms. This is a
+benchmark, not a test: it prints figures and ratios and fails only if something breaks.
+"""
+import argparse
+import os
+import pathlib
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+
+from jupyter_client.manager import KernelManager
+
+ROOT = pathlib.Path(__file__).resolve().parents[2]
+DATA = ROOT / "notebooks" / "data" / "snails.csv"
+
+PARTITA_SETUP = f'read "{DATA}" as trial'
+PARTITA_CELL = "anova weight across feed in trial"
+PY_SETUP = f"""
+import io, csv
+import matplotlib
+matplotlib.use("svg")
+import matplotlib.pyplot as plt
+from scipy.stats import f_oneway
+from IPython.display import SVG, display
+rows = [r for r in csv.DictReader(open({str(DATA)!r})) if r["weight"] not in ("", "NA")]
+groups = {{}}
+for r in rows:
+    groups.setdefault(r["feed"], []).append(float(r["weight"]))
+"""
+PY_CELL = """
+res = f_oneway(*groups.values())
+fig, ax = plt.subplots(figsize=(5, 3.5))
+for i, (k, v) in enumerate(groups.items()):
+    ax.scatter([i] * len(v), v, alpha=0.5)
+    ax.errorbar([i + 0.2], [sum(v) / len(v)], fmt="o", color="k")
+buf = io.StringIO(); fig.savefig(buf, format="svg"); plt.close(fig)
+display(SVG(buf.getvalue()))
+res
+"""
+
+
+def run_cell(kc, code):
+    msg_id = kc.execute(code)
+    while True:
+        r = kc.get_shell_msg(timeout=60)
+        if r["parent_header"].get("msg_id") == msg_id:
+            break
+    if r["content"]["status"] != "ok":
+        raise RuntimeError(f"cell failed: {r['content']}")
+    while True:
+        m = kc.get_iopub_msg(timeout=60)
+        if m["parent_header"].get("msg_id") == msg_id and m["msg_type"] == "status" \
+                and m["content"]["execution_state"] == "idle":
+            return
+
+
+def cold_start(name):
+    km = KernelManager(kernel_name=name)
+    t0 = time.perf_counter()
+    km.start_kernel()
+    kc = km.client()
+    kc.start_channels()
+    while True:
+        msg_id = kc.kernel_info()
+        try:
+            r = kc.get_shell_msg(timeout=0.02)
+        except Exception:
+            continue
+        if r["msg_type"] == "kernel_info_reply":
+            break
+    elapsed = time.perf_counter() - t0
+    return km, kc, elapsed
+
+
+def measure(name, setup, cell, starts, trips):
+    times = []
+    for _ in range(starts):
+        km, kc, t = cold_start(name)
+        times.append(t)
+        kc.stop_channels()
+        km.shutdown_kernel(now=True)
+    km, kc, _ = cold_start(name)
+    run_cell(kc, setup)
+    run_cell(kc, cell)  # warm up
+    rt = []
+    for _ in range(trips):
+        t0 = time.perf_counter()
+        run_cell(kc, cell)
+        rt.append(time.perf_counter() - t0)
+    kc.stop_channels()
+    km.shutdown_kernel(now=True)
+    return statistics.median(times), statistics.median(rt)
+
+
+def main():
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--bin", default=str(ROOT / "target" / "release" / "partita"))
+    ap.add_argument("--smoke", action="store_true", help="a few seconds, to prove the script works")
+    a = ap.parse_args()
+    starts, trips = (2, 3) if a.smoke else (15, 200)
+    prefix = pathlib.Path(tempfile.mkdtemp(prefix="partita-bench-"))
+    subprocess.run([a.bin, "install", "--prefix", str(prefix)], check=True, capture_output=True)
+    subprocess.run([sys.executable, "-m", "ipykernel", "install", "--prefix", str(prefix), "--name", "bench-python"],
+                   check=True, capture_output=True)
+    os.environ["JUPYTER_PATH"] = str(prefix / "share" / "jupyter")
+    p_start, p_rt = measure("partita", PARTITA_SETUP, PARTITA_CELL, starts, trips)
+    y_start, y_rt = measure("bench-python", PY_SETUP, PY_CELL, starts, trips)
+    print(f"binary: {a.bin}{'  (smoke run: few repetitions)' if a.smoke else ''}")
+    print(f"cold start to first kernel_info_reply (median of {starts}):")
+    print(f"  partita  {p_start * 1e3:8.1f} ms   (target <= 50 ms)")
+    print(f"  python   {y_start * 1e3:8.1f} ms")
+    print(f"  ratio python/partita {y_start / p_start:6.1f}x")
+    print(f"one-way ANOVA cell with figure, round trip (median of {trips}):")
+    print(f"  partita  {p_rt * 1e3:8.2f} ms   (target <= 5 ms)")
+    print(f"  python   {y_rt * 1e3:8.2f} ms")
+    print(f"  ratio python/partita {y_rt / p_rt:6.1f}x")
+
+
+if __name__ == "__main__":
+    main()
