@@ -200,9 +200,16 @@ mod tests {
         assert_eq!(r.rows[1].ss, 4.0);
         assert_eq!(e.f, Some(13.5));
         assert_eq!(e.eta2, Some(13.5 / 17.5));
-        // F(1, 4) = t²(4): P(F > 13.5) = P(|t| > √13.5); for t(4), two-sided P = 1 − ... ; checked
-        // against scipy in tests/python; here only the identity p ∈ (0, 1).
-        assert!(e.p.unwrap() > 0.0 && e.p.unwrap() < 0.05);
+        // F(1, 4) = T² with T ~ t(4), whose two-sided tail has the closed form
+        // P(|T| > t) = 1 − x(3 − x²)/2, x = t/√(t² + 4) (exact for 4 df).
+        let t = 13.5f64.sqrt();
+        let x = t / (t * t + 4.0).sqrt();
+        let exact = 1.0 - x * (3.0 - x * x) / 2.0;
+        assert!(
+            (e.p.unwrap() - exact).abs() < 1e-13 * exact,
+            "{:?} vs {exact}",
+            e.p
+        );
     }
 
     #[test]

@@ -1,6 +1,6 @@
 //! HTML rendering through maud, which escapes every interpolated string: a column or level
-//! named `<script>…` renders as text. Only the SVG produced by [`super::svg`] (whose text is
-//! itself escaped there) is inserted unescaped.
+//! named `<script>…` renders as text. Only the SVG produced by [`super::svg`] (whose text
+//! plotters escapes) is inserted unescaped.
 
 use super::{Align, Answer, DisplayTable};
 use maud::{Markup, PreEscaped, html};

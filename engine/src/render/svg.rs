@@ -1,4 +1,5 @@
-//! Figures as SVG through plotters (SVG backend only: no system fonts or C libraries).
+//! Figures as SVG through plotters (SVG backend only: no system fonts or C libraries; the
+//! backend escapes text it writes).
 //!
 //! Every figure shows every observation (jittered deterministically, so a rerun draws the same
 //! picture) and, by kind, the group means with their confidence intervals or box plots.
@@ -100,7 +101,8 @@ pub fn draw(fig: &Figure) -> Option<String> {
         lo.abs().max(1.0) * 0.1
     };
     let (lo, hi) = (lo - pad, hi + pad);
-    let names: Vec<String> = fig.groups.iter().map(|g| esc(&g.name)).collect();
+    // plotters escapes text itself when it writes SVG.
+    let names: Vec<String> = fig.groups.iter().map(|g| g.name.clone()).collect();
     let mut buf = String::new();
     let width = (160 + 90 * k as u32).clamp(360, 900);
     {
@@ -113,8 +115,8 @@ pub fn draw(fig: &Figure) -> Option<String> {
             .build_cartesian_2d(-0.5f64..(k as f64 - 0.5), lo..hi)
             .ok()?;
         let fmt_x = |_: &f64| String::new();
-        let x_desc = esc(&fig.x_label);
-        let y_desc = esc(&fig.y_label);
+        let x_desc = fig.x_label.clone();
+        let y_desc = fig.y_label.clone();
         chart
             .configure_mesh()
             .disable_x_mesh()
@@ -277,6 +279,8 @@ mod tests {
     fn level_names_are_escaped_in_svg() {
         let s = draw(&fig(PlotKind::Means, "<script>x</script>")).unwrap();
         assert!(!s.contains("<script>"));
+        assert!(s.contains("&lt;script&gt;x&lt;/script&gt;"));
+        assert!(!s.contains("&amp;lt;"));
     }
 
     #[test]
