@@ -156,3 +156,44 @@ def test_unknown_request_gets_an_error_reply(kernel):
     rep = kc.get_shell_msg(timeout=5)
     assert rep["msg_type"] == "made_up_reply"
     assert rep["content"]["status"] == "error"
+
+
+def test_sigint_interrupts_like_the_message():
+    import os
+    import signal
+    km, kc = start_new_kernel(kernel_name="partita")
+    try:
+        msg_id = kc.execute("pause 30")
+        while True:
+            m = kc.get_iopub_msg(timeout=10)
+            if m["parent_header"].get("msg_id") == msg_id and m["msg_type"] == "execute_input":
+                break
+        time.sleep(0.2)
+        os.kill(km.provisioner.process.pid, signal.SIGINT)
+        reply = kc.get_shell_msg(timeout=10)
+        assert reply["content"]["ename"] == "Interrupted"
+        assert km.is_alive()
+        r, _ = execute(kc, "help")
+        assert r["content"]["status"] == "ok"
+    finally:
+        kc.stop_channels()
+        km.shutdown_kernel(now=True)
+
+
+def test_silent_cells_broadcast_nothing_and_do_not_count(kernel):
+    km, kc = kernel
+    r1, _ = execute(kc, "help")
+    msg_id = kc.execute("help", silent=True)
+    reply = kc.get_shell_msg(timeout=10)
+    assert reply["parent_header"]["msg_id"] == msg_id
+    seen = []
+    while True:
+        m = kc.get_iopub_msg(timeout=10)
+        if m["parent_header"].get("msg_id") != msg_id:
+            continue
+        seen.append(m["msg_type"])
+        if m["msg_type"] == "status" and m["content"]["execution_state"] == "idle":
+            break
+    assert seen == ["status", "status"]
+    r2, _ = execute(kc, "help")
+    assert r2["content"]["execution_count"] == r1["content"]["execution_count"] + 1

@@ -66,14 +66,6 @@ pub fn quantile(sorted: &[f64], q: f64) -> f64 {
     sorted[lo] + (h - lo as f64) * (sorted[hi] - sorted[lo])
 }
 
-/// Escapes text for an SVG text node.
-fn esc(s: &str) -> String {
-    s.replace('&', "&amp;")
-        .replace('<', "&lt;")
-        .replace('>', "&gt;")
-        .replace('"', "&quot;")
-}
-
 /// Draws the figure; `None` if it cannot be drawn (the answer then says so in a note).
 pub fn draw(fig: &Figure) -> Option<String> {
     let k = fig.groups.len();
@@ -120,7 +112,9 @@ pub fn draw(fig: &Figure) -> Option<String> {
         chart
             .configure_mesh()
             .disable_x_mesh()
-            .light_line_style(RGBColor(0xee, 0xee, 0xee))
+            .light_line_style(TRANSPARENT)
+            .bold_line_style(RGBColor(0xe4, 0xe4, 0xe4))
+            .x_labels(0)
             .x_label_formatter(&fmt_x)
             .x_desc(x_desc.as_str())
             .y_desc(y_desc.as_str())
