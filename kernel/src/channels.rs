@@ -74,6 +74,24 @@ async fn bind<S: Socket>(
         .map_err(|e| format!("cannot bind the {name} socket to {ep}: {e}"))
 }
 
+/// The owner task of a socket's sending side: sends what arrives on `rx`, logging failures
+/// (a ROUTER send to an identity that has gone is an error, not a reason to stop).
+fn spawn_sender<S: SocketSend + Send + 'static>(
+    mut socket: S,
+    mut rx: tokio::sync::mpsc::UnboundedReceiver<Frames>,
+    name: &'static str,
+) {
+    tokio::spawn(async move {
+        while let Some(f) = rx.recv().await {
+            if let Some(m) = to_zmq(f) {
+                if let Err(e) = socket.send(m).await {
+                    eprintln!("partita: {name} send failed: {e}");
+                }
+            }
+        }
+    });
+}
+
 async fn run(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), String> {
     let mut shell = RouterSocket::new();
     let mut control = RouterSocket::new();
@@ -87,9 +105,9 @@ async fn run(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), S
     bind(&mut hb, &conn, conn.hb_port, "heartbeat").await?;
 
     let signer = Signer::new(&conn.key);
-    let (shell_tx, mut shell_rx) = unbounded_channel::<Frames>();
-    let (control_tx, mut control_rx) = unbounded_channel::<Frames>();
-    let (iopub_tx, mut iopub_rx) = unbounded_channel::<Frames>();
+    let (shell_tx, shell_rx) = unbounded_channel::<Frames>();
+    let (control_tx, control_rx) = unbounded_channel::<Frames>();
+    let (iopub_tx, iopub_rx) = unbounded_channel::<Frames>();
     let transport = SocketTransport {
         signer: signer.clone(),
         shell: shell_tx,
@@ -98,36 +116,12 @@ async fn run(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), S
     };
     let (exit_tx, mut exit_rx) = unbounded_channel::<()>();
 
-    let (mut shell_send, mut shell_recv) = shell.split();
-    let (mut control_send, mut control_recv) = control.split();
+    let (shell_send, mut shell_recv) = shell.split();
+    let (control_send, mut control_recv) = control.split();
 
-    tokio::spawn(async move {
-        while let Some(f) = shell_rx.recv().await {
-            if let Some(m) = to_zmq(f) {
-                if let Err(e) = shell_send.send(m).await {
-                    eprintln!("partita: shell send failed: {e}");
-                }
-            }
-        }
-    });
-    tokio::spawn(async move {
-        while let Some(f) = control_rx.recv().await {
-            if let Some(m) = to_zmq(f) {
-                if let Err(e) = control_send.send(m).await {
-                    eprintln!("partita: control send failed: {e}");
-                }
-            }
-        }
-    });
-    tokio::spawn(async move {
-        while let Some(f) = iopub_rx.recv().await {
-            if let Some(m) = to_zmq(f) {
-                if let Err(e) = iopub.send(m).await {
-                    eprintln!("partita: iopub send failed: {e}");
-                }
-            }
-        }
-    });
+    spawn_sender(shell_send, shell_rx, "shell");
+    spawn_sender(control_send, control_rx, "control");
+    spawn_sender(iopub, iopub_rx, "iopub");
     tokio::spawn(async move {
         loop {
             match hb.recv().await {

@@ -359,14 +359,19 @@ mod tests {
         }
     }
 
-    fn run(t: &str, content: Value) -> Vec<(Channel, Message)> {
+    fn dispatcher() -> (Memory, Dispatcher<Memory>) {
         let mem = Memory::default();
-        let mut d = Dispatcher::new(
+        let d = Dispatcher::new(
             mem.clone(),
             Box::new(Echo),
             Arc::new(AtomicBool::new(false)),
             Replier::new(),
         );
+        (mem, d)
+    }
+
+    fn run(t: &str, content: Value) -> Vec<(Channel, Message)> {
+        let (mem, mut d) = dispatcher();
         d.handle(Channel::Shell, &request(t, content));
         let v = mem.0.lock().unwrap().clone();
         v
@@ -468,13 +473,7 @@ mod tests {
             v[1].1.content,
             json!({"status": "ok", "matches": ["anova"], "cursor_start": 0, "cursor_end": 2, "metadata": {}})
         );
-        let mem = Memory::default();
-        let mut d = Dispatcher::new(
-            mem.clone(),
-            Box::new(Echo),
-            Arc::new(AtomicBool::new(false)),
-            Replier::new(),
-        );
+        let (mem, mut d) = dispatcher();
         assert_eq!(
             d.handle(
                 Channel::Control,
@@ -490,13 +489,7 @@ mod tests {
 
     #[test]
     fn aborted_requests_are_paired_too() {
-        let mem = Memory::default();
-        let mut d = Dispatcher::new(
-            mem.clone(),
-            Box::new(Echo),
-            Arc::new(AtomicBool::new(false)),
-            Replier::new(),
-        );
+        let (mem, mut d) = dispatcher();
         d.abort(
             Channel::Shell,
             &request("execute_request", json!({"code": "x"})),

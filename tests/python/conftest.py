@@ -38,6 +38,15 @@ def execute(kc, code, timeout=30):
     return reply, msgs
 
 
+def start_pause(kc, seconds):
+    """Starts the test-only `pause` and returns its msg_id once the cell is running."""
+    msg_id = kc.execute(f"pause {seconds}")
+    while True:
+        m = kc.get_iopub_msg(timeout=10)
+        if m["parent_header"].get("msg_id") == msg_id and m["msg_type"] == "execute_input":
+            return msg_id
+
+
 @pytest.fixture(scope="module")
 def kernel():
     from jupyter_client.manager import start_new_kernel

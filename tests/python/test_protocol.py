@@ -8,7 +8,7 @@ import zmq
 from jupyter_client.manager import start_new_kernel
 from jupyter_client.session import Session
 
-from conftest import execute
+from conftest import execute, start_pause
 
 
 def test_wrongly_signed_execute_is_not_executed(kernel):
@@ -42,12 +42,7 @@ def test_wrongly_signed_execute_is_not_executed(kernel):
 
 def test_interrupt_during_a_long_computation_returns_to_idle(kernel):
     km, kc = kernel
-    msg_id = kc.execute("pause 30")
-    # Wait until the cell is running.
-    while True:
-        m = kc.get_iopub_msg(timeout=10)
-        if m["parent_header"].get("msg_id") == msg_id and m["msg_type"] == "execute_input":
-            break
+    msg_id = start_pause(kc, 30)
     time.sleep(0.3)
     t0 = time.time()
     km.interrupt_kernel()
@@ -163,11 +158,7 @@ def test_sigint_interrupts_like_the_message():
     import signal
     km, kc = start_new_kernel(kernel_name="partita")
     try:
-        msg_id = kc.execute("pause 30")
-        while True:
-            m = kc.get_iopub_msg(timeout=10)
-            if m["parent_header"].get("msg_id") == msg_id and m["msg_type"] == "execute_input":
-                break
+        msg_id = start_pause(kc, 30)
         time.sleep(0.2)
         os.kill(km.provisioner.process.pid, signal.SIGINT)
         reply = kc.get_shell_msg(timeout=10)
