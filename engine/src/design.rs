@@ -219,10 +219,10 @@ fn eval(e: &Expr, ds: &Dataset, mask: &mut [bool]) -> Result<(), CellError> {
                             ))
                             .at(value.span)
                         })?,
-                        Value::Word(w) => {
+                        Value::Word(_) | Value::List(_) => {
                             return Err(CellError::syntax(
                                 value.span,
-                                format!("`{w}` is not a value"),
+                                format!("`{}` is not a number", value.value.text()),
                             ));
                         }
                     };

@@ -76,8 +76,11 @@ pub const VERBS: &[VerbHelp] = &[
     VerbHelp {
         verb: "anova",
         usage: "anova Y across F [in NAME] [where CONDITION]",
-        summary: "One-way between-subjects analysis of variance of Y across the levels of F: table (df, SS, MS, F, p, η², ω²), figure, report sentence and notes.",
-        options: &[],
+        summary: "One-way between-subjects analysis of variance of Y across the levels of F: table (df, SS, MS, F, p, η², ω²), a confidence interval for η² and f, figure, report sentence and notes.",
+        options: &[(
+            "level L",
+            "confidence level of the intervals (default 0.95)",
+        )],
         example: "anova gain across feed in trial where pen != \"P4\"",
     },
     VerbHelp {
@@ -89,6 +92,29 @@ pub const VERBS: &[VerbHelp] = &[
             "confidence level of the intervals in `means` (default 0.95)",
         )],
         example: "plot box gain across feed",
+    },
+    VerbHelp {
+        verb: "power",
+        usage: "power groups K with f F, n N [, alpha A]   |   power within M with f F, n N, rho R [, epsilon E]",
+        summary: "Power of a one-way design with K equal groups, or of a within-subject factor with M levels measured on N subjects; `power P` instead of `n N` finds the smallest n reaching P. The effect size is f, or `eta2 E`, or (groups) `means (m1, m2, …), sd S`. A figure shows power against n for several effect sizes.",
+        options: &[
+            ("f F", "Cohen's f: SD of the means over the within-group SD"),
+            ("eta2 E", "the effect as η² (f = √(η²/(1 − η²)))"),
+            ("means (…)", "the expected group means (with `sd`)"),
+            ("sd S", "the within-group SD (with `means`)"),
+            ("n N", "per group, or subjects for `within`"),
+            (
+                "power P",
+                "the target power; the answer is the n that reaches it",
+            ),
+            ("alpha A", "the significance level (default 0.05)"),
+            ("rho R", "`within`: correlation among the repeated measures"),
+            (
+                "epsilon E",
+                "`within`: sphericity ε, from 1/(M − 1) to 1 (default 1)",
+            ),
+        ],
+        example: "power groups 3 with means (4.1, 4.6, 5.3), sd 0.6, power 0.8",
     },
     VerbHelp {
         verb: "help",

@@ -25,6 +25,7 @@ pub mod error;
 pub mod help;
 pub mod lang;
 pub mod models;
+mod power;
 pub mod render;
 mod session;
 

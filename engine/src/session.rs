@@ -122,6 +122,11 @@ impl Session {
                 ))))
             }
             StmtKind::Analysis(a) => self.analysis(a).map(Some),
+            StmtKind::Power {
+                design,
+                count,
+                options,
+            } => crate::power::run(design, count, options).map(Some),
             StmtKind::Help { topic } => help_answer(topic.as_ref()).map(Some),
             StmtKind::Pause { seconds } => {
                 let end = std::time::Instant::now()
@@ -341,7 +346,7 @@ impl Session {
 
     fn analysis(&self, a: &Analysis) -> Result<Answer, CellError> {
         let allowed: &[&str] = match a.verb {
-            Verb::Anova => &[],
+            Verb::Anova => &["level"],
             Verb::Describe | Verb::Plot(_) => &["level"],
         };
         check_options(&a.options, a.verb.word(), allowed)?;
@@ -481,6 +486,20 @@ impl Session {
                 )
                 .map_err(|e| e.at_if_none(a.factors[0].span))?;
                 notes.extend(fit.notes.iter().cloned());
+                let mut fit = fit;
+                let (df_b, df_w, n_tot) = (fit.rows[0].df, fit.rows[1].df, fit.n as f64);
+                if let Some(fv) = fit.rows[0].f {
+                    if let Some(ci) =
+                        crate::models::power::effect_interval(fv, df_b, df_w, n_tot, level)
+                    {
+                        let r = &mut fit.rows[0];
+                        r.eta2_ci_low = Some(ci.eta2_low);
+                        r.eta2_ci_high = Some(ci.eta2_high);
+                        r.f_ci_low = Some(ci.f_low);
+                        r.f_ci_high = Some(ci.f_high);
+                        r.level = Some(level);
+                    }
+                }
                 let e = fit.effect();
                 answer.title = format!(
                     "One-way ANOVA: {y_label} across {factor_label} ({} levels, {} observations)",
@@ -525,13 +544,18 @@ impl Session {
                 answer.tables.push(cells_table);
                 answer.report = Some(match (e.f, e.p) {
                     (Some(f), Some(p)) => format!(
-                        "{}: F({}, {}) = {}, {}, η² = {}, ω² = {}",
+                        "{}: F({}, {}) = {}, {}, η² = {}{}, ω² = {}",
                         fname,
                         df(e.df),
                         df(fit.rows[1].df),
                         stat(f),
                         p_report(p),
                         es(e.eta2.unwrap_or(0.0)),
+                        match (e.eta2_ci_low, e.eta2_ci_high) {
+                            (Some(a), Some(b)) =>
+                                format!(", {}% CI [{}, {}]", pct(level), es(a), es(b)),
+                            _ => String::new(),
+                        },
                         es(e.omega2.unwrap_or(0.0))
                     ),
                     _ => format!(
@@ -961,7 +985,11 @@ fn help_answer(topic: Option<&Name>) -> Result<Answer, CellError> {
     }
 }
 
-fn check_options(options: &[Opt], verb: &str, allowed: &[&str]) -> Result<(), CellError> {
+pub(crate) fn check_options(
+    options: &[Opt],
+    verb: &str,
+    allowed: &[&str],
+) -> Result<(), CellError> {
     for (i, o) in options.iter().enumerate() {
         if !allowed.contains(&o.name.value.as_str()) {
             let mut e = CellError::input(format!("`{verb}` has no option `{}`", o.name.value))
@@ -984,7 +1012,7 @@ fn check_options(options: &[Opt], verb: &str, allowed: &[&str]) -> Result<(), Ce
     Ok(())
 }
 
-fn one_value(o: &Opt) -> Result<&Value, CellError> {
+pub(crate) fn one_value(o: &Opt) -> Result<&Value, CellError> {
     match o.values.as_slice() {
         [v] => Ok(&v.value),
         [] => Err(CellError::input(format!("option `{}` needs a value", o.name.value)).at(o.span)),
@@ -992,7 +1020,7 @@ fn one_value(o: &Opt) -> Result<&Value, CellError> {
     }
 }
 
-fn one_number(o: &Opt) -> Result<f64, CellError> {
+pub(crate) fn one_number(o: &Opt) -> Result<f64, CellError> {
     match one_value(o)? {
         Value::Num(v, _) => Ok(*v),
         other => Err(CellError::input(format!(

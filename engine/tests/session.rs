@@ -219,3 +219,65 @@ fn inspection_of_verbs_datasets_and_columns() {
     );
     assert!(s.inspect("   ", 1).is_none());
 }
+
+#[test]
+fn power_bad_input_is_named() {
+    let mut s = Session::new();
+    for (src, needle) in [
+        ("power groups 3 with f 0, n 20", "`f` must be above 0"),
+        (
+            "power groups 3 with f 0.25, n 20, alpha 1.5",
+            "`alpha` must be between 0 and 1",
+        ),
+        (
+            "power groups 3 with f 0.25, power 0.01",
+            "`power` must be between alpha",
+        ),
+        ("power groups 1 with f 0.25, n 20", "from 2 to 1000"),
+        (
+            "power groups 3 with f 0.25, n 1",
+            "`n` must be a whole number from 2",
+        ),
+        (
+            "power groups 3 with f 0.001, power 0.99",
+            "not reached with n ≤ 100000",
+        ),
+        ("power groups 3 with f 0.25", "give either `n N`"),
+        ("power groups 3 with f 0.25, eta2 0.1, n 5", "one way"),
+        (
+            "power groups 3 with means (1, 2), sd 1, n 5",
+            "2 means are given for 3 groups",
+        ),
+        ("power within 3 with f 0.25, n 10", "needs `rho R`"),
+        (
+            "power within 3 with f 0.25, n 10, rho 0.5, epsilon 0.2",
+            "`epsilon` must be between",
+        ),
+    ] {
+        let e = run(&mut s, src).unwrap_err();
+        assert_eq!(e.kind, ErrorKind::InputError, "{src}");
+        assert!(e.message.contains(needle), "{src}: {}", e.message);
+    }
+}
+
+#[test]
+fn power_answers_with_table_sentence_and_figure() {
+    let mut s = Session::new();
+    let out = run(&mut s, "power groups 3 with f 0.25, power 0.8").unwrap();
+    let row = &bundle(&out[0])["tables"]["power"][0];
+    assert_eq!(row["target_power"], 0.8);
+    assert!(row["power"].as_f64().unwrap() >= 0.8);
+    assert_eq!(row["total_n"], row["n_per_group"].as_u64().unwrap() * 3);
+    assert!(
+        out[0].data["text/markdown"]
+            .as_str()
+            .unwrap()
+            .starts_with("With 3 groups and f = 0.25 at α = .05, ")
+    );
+    assert!(
+        out[0].data["image/svg+xml"]
+            .as_str()
+            .unwrap()
+            .contains("n per group")
+    );
+}

@@ -70,6 +70,15 @@ pub enum StmtKind {
         /// The verb asked about.
         topic: Option<Name>,
     },
+    /// `power groups K with …` or `power within M with …`.
+    Power {
+        /// `groups` or `within`.
+        design: Name,
+        /// K groups or M levels.
+        count: Spanned<f64>,
+        /// Options.
+        options: Vec<Opt>,
+    },
     /// `pause SECONDS` (tests only).
     Pause {
         /// Seconds to wait.
@@ -177,6 +186,8 @@ pub enum Value {
     Str(String),
     /// A bare word.
     Word(String),
+    /// A parenthesised list, e.g. `(4.1, 4.6, 5.3)`.
+    List(Vec<Spanned<Value>>),
 }
 
 impl Value {
@@ -185,6 +196,15 @@ impl Value {
         match self {
             Value::Num(_, t) => t.clone(),
             Value::Str(s) | Value::Word(s) => s.clone(),
+            Value::List(v) => {
+                format!(
+                    "({})",
+                    v.iter()
+                        .map(|x| x.value.text())
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                )
+            }
         }
     }
 }

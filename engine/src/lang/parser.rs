@@ -194,6 +194,36 @@ impl<'a> Parser<'a> {
                     })?;
                 StmtKind::Analysis(self.analysis(Verb::Plot(kind), verb_span)?)
             }
+            "power" => {
+                let design = self.name("`groups` or `within`")?;
+                if design.value != "groups" && design.value != "within" {
+                    return Err(CellError::syntax(
+                        design.span,
+                        format!(
+                            "expected `groups` or `within` after `power`, found `{}`",
+                            design.value
+                        ),
+                    )
+                    .suggest(nearest(&design.value, ["groups", "within"]))
+                    .note("e.g. `power groups 3 with f 0.25, n 20`"));
+                }
+                let count = match self.next() {
+                    Some(Token {
+                        kind: Tok::Num(v, _),
+                        span,
+                    }) => Spanned::new(*v, *span),
+                    _ => {
+                        self.pos = self.pos.saturating_sub(1);
+                        return Err(self.unexpected("the number of groups or levels"));
+                    }
+                };
+                let options = self.options()?;
+                StmtKind::Power {
+                    design,
+                    count,
+                    options,
+                }
+            }
             "help" => {
                 let topic = if self.at_end() {
                     None
@@ -365,6 +395,33 @@ impl<'a> Parser<'a> {
                         kind: Tok::Comma, ..
                     })
                     | None => break,
+                    Some(Token {
+                        kind: Tok::LParen,
+                        span,
+                    }) => {
+                        let start = *span;
+                        self.pos += 1;
+                        let mut items = vec![self.value()?];
+                        loop {
+                            match self.next() {
+                                Some(Token {
+                                    kind: Tok::Comma, ..
+                                }) => items.push(self.value()?),
+                                Some(Token {
+                                    kind: Tok::RParen,
+                                    span,
+                                }) => {
+                                    end = *span;
+                                    break;
+                                }
+                                _ => {
+                                    self.pos = self.pos.saturating_sub(1);
+                                    return Err(self.unexpected("`,` or `)` in the list"));
+                                }
+                            }
+                        }
+                        values.push(Spanned::new(Value::List(items), start.to(end)));
+                    }
                     Some(Token { kind, span }) => {
                         let v = match kind {
                             Tok::Num(v, t) => Value::Num(*v, t.clone()),
@@ -610,6 +667,31 @@ mod tests {
     fn bad_plot_kind() {
         let e = parse("plot mean y across g").unwrap_err();
         assert_eq!(e.suggestion.as_deref(), Some("means"));
+    }
+
+    #[test]
+    fn power_with_a_list_of_means() {
+        let StmtKind::Power {
+            design,
+            count,
+            options,
+        } = one("power groups 3 with means (4.1, 4.6, 5.3), sd 0.6, power 0.8")
+        else {
+            panic!()
+        };
+        assert_eq!((design.value.as_str(), count.value), ("groups", 3.0));
+        assert_eq!(options.len(), 3);
+        let Value::List(v) = &options[0].values[0].value else {
+            panic!()
+        };
+        assert_eq!(v.len(), 3);
+        assert!(
+            parse("power group 3 with f 0.2, n 4")
+                .unwrap_err()
+                .suggestion
+                .as_deref()
+                == Some("groups")
+        );
     }
 
     #[test]

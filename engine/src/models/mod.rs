@@ -3,4 +3,5 @@
 
 pub mod describe;
 pub mod oneway;
+pub mod power;
 pub mod sums;

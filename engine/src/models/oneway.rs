@@ -58,6 +58,21 @@ pub struct EffectRow {
     pub eta2_partial: Option<f64>,
     /// Partial ω².
     pub omega2_partial: Option<f64>,
+    /// Lower confidence bound of η² (noncentral-F inversion, see [`super::power`]).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub eta2_ci_low: Option<f64>,
+    /// Upper confidence bound of η².
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub eta2_ci_high: Option<f64>,
+    /// Lower confidence bound of f.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub f_ci_low: Option<f64>,
+    /// Upper confidence bound of f.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub f_ci_high: Option<f64>,
+    /// The confidence level of those bounds.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub level: Option<f64>,
 }
 
 /// A one-way ANOVA result.
@@ -152,6 +167,11 @@ pub fn oneway(effect: &str, groups: &[Vec<f64>]) -> Result<OneWay, CellError> {
             omega2: Some(omega2),
             eta2_partial: Some(eta2),
             omega2_partial: Some(omega2),
+            eta2_ci_low: None,
+            eta2_ci_high: None,
+            f_ci_low: None,
+            f_ci_high: None,
+            level: None,
         },
         EffectRow {
             effect: "Residual".into(),
@@ -166,6 +186,11 @@ pub fn oneway(effect: &str, groups: &[Vec<f64>]) -> Result<OneWay, CellError> {
             omega2: None,
             eta2_partial: None,
             omega2_partial: None,
+            eta2_ci_low: None,
+            eta2_ci_high: None,
+            f_ci_low: None,
+            f_ci_high: None,
+            level: None,
         },
         EffectRow {
             effect: "Total".into(),
@@ -180,6 +205,11 @@ pub fn oneway(effect: &str, groups: &[Vec<f64>]) -> Result<OneWay, CellError> {
             omega2: None,
             eta2_partial: None,
             omega2_partial: None,
+            eta2_ci_low: None,
+            eta2_ci_high: None,
+            f_ci_low: None,
+            f_ci_high: None,
+            level: None,
         },
     ];
     Ok(OneWay { rows, k, n, notes })

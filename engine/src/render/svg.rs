@@ -283,3 +283,68 @@ mod tests {
         assert!((0..1000).all(|i| (-0.5..0.5).contains(&jitter(0, i))));
     }
 }
+
+/// A line figure: power (or any 0–1 quantity) against n for several curves, one point marked.
+pub fn draw_curves(
+    curves: &[(String, Vec<(f64, f64)>)],
+    point: (f64, f64),
+    x_label: &str,
+    y_label: &str,
+) -> Option<String> {
+    let x_max = curves
+        .iter()
+        .flat_map(|c| c.1.iter().map(|p| p.0))
+        .fold(point.0, f64::max);
+    let x_min = curves
+        .iter()
+        .flat_map(|c| c.1.iter().map(|p| p.0))
+        .fold(point.0, f64::min);
+    if !(x_max > x_min) {
+        return None;
+    }
+    let mut buf = String::new();
+    {
+        let root = SVGBackend::with_string(&mut buf, (560, 360)).into_drawing_area();
+        root.fill(&WHITE).ok()?;
+        let mut chart = ChartBuilder::on(&root)
+            .margin(14)
+            .x_label_area_size(44)
+            .y_label_area_size(56)
+            .build_cartesian_2d(x_min..x_max, 0.0f64..1.0)
+            .ok()?;
+        chart
+            .configure_mesh()
+            .light_line_style(TRANSPARENT)
+            .bold_line_style(RGBColor(0xe4, 0xe4, 0xe4))
+            .x_label_formatter(&|x: &f64| format!("{x:.0}"))
+            .x_desc(x_label)
+            .y_desc(y_label)
+            .label_style(("sans-serif", 13))
+            .axis_desc_style(("sans-serif", 14))
+            .draw()
+            .ok()?;
+        for (i, (label, pts)) in curves.iter().enumerate() {
+            let colour = PALETTE[i % PALETTE.len()];
+            chart
+                .draw_series(LineSeries::new(pts.iter().copied(), colour.stroke_width(2)))
+                .ok()?
+                .label(label.clone())
+                .legend(move |(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 18, y)], colour.stroke_width(2))
+                });
+        }
+        chart
+            .draw_series(std::iter::once(Circle::new(point, 6, BLACK.filled())))
+            .ok()?;
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::LowerRight)
+            .background_style(WHITE.mix(0.9))
+            .border_style(RGBColor(0xbb, 0xbb, 0xbb))
+            .label_font(("sans-serif", 12))
+            .draw()
+            .ok()?;
+        root.present().ok()?;
+    }
+    Some(buf)
+}
