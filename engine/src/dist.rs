@@ -141,42 +141,19 @@ pub fn ncf_sf(x: f64, d1: f64, d2: f64, lambda: f64) -> Option<f64> {
     ncf_tails(x, d1, d2, lambda).map(|t| t.1)
 }
 
-/// The x with P(F(d1, d2) > x) = p (central F), by bisection on the directly computed tail.
-pub fn f_isf(p: f64, d1: f64, d2: f64) -> Option<f64> {
-    if !(p > 0.0 && p < 1.0) {
-        return None;
-    }
-    let (mut lo, mut hi) = (0.0f64, 1.0f64);
-    let mut guard = 0;
-    while f_sf(hi, d1, d2)? > p {
-        hi *= 2.0;
-        guard += 1;
-        if guard > 2000 {
-            return None;
-        }
-    }
-    for _ in 0..200 {
-        let mid = 0.5 * (lo + hi);
-        if f_sf(mid, d1, d2)? > p {
-            lo = mid
-        } else {
-            hi = mid
-        }
-        if hi - lo <= 1e-15 * hi {
-            break;
-        }
-    }
-    Some(0.5 * (lo + hi))
-}
-
-/// The q quantile of the noncentral F, by bisection on the cdf (monotone in x).
-pub fn ncf_ppf(q: f64, d1: f64, d2: f64, lambda: f64) -> Option<f64> {
-    if !(q > 0.0 && q < 1.0) {
-        return None;
-    }
+/// The t ≥ 0 where `g(t)` crosses `target`, for `g` monotone in t: `rising` says which way.
+/// The upper bracket doubles from 1 (at most 2,000 times), then 200 bisection steps stop at a
+/// relative width of `rel`; a `None` from `g` or no bracket is `None`, never a guess.
+fn solve_monotone(
+    g: impl Fn(f64) -> Option<f64>,
+    target: f64,
+    rising: bool,
+    rel: f64,
+) -> Option<f64> {
+    let below = |t: f64| g(t).map(|v| if rising { v < target } else { v > target });
     let mut hi = 1.0f64;
     let mut guard = 0;
-    while ncf_cdf(hi, d1, d2, lambda)? < q {
+    while below(hi)? {
         hi *= 2.0;
         guard += 1;
         if guard > 2000 {
@@ -186,16 +163,32 @@ pub fn ncf_ppf(q: f64, d1: f64, d2: f64, lambda: f64) -> Option<f64> {
     let mut lo = 0.0f64;
     for _ in 0..200 {
         let mid = 0.5 * (lo + hi);
-        if ncf_cdf(mid, d1, d2, lambda)? < q {
+        if below(mid)? {
             lo = mid
         } else {
             hi = mid
         }
-        if hi - lo <= 1e-14 * hi {
+        if hi - lo <= rel * hi.max(1e-300) {
             break;
         }
     }
     Some(0.5 * (lo + hi))
+}
+
+/// The x with P(F(d1, d2) > x) = p (central F), by bisection on the directly computed tail.
+pub fn f_isf(p: f64, d1: f64, d2: f64) -> Option<f64> {
+    if !(p > 0.0 && p < 1.0) {
+        return None;
+    }
+    solve_monotone(|x| f_sf(x, d1, d2), p, false, 1e-15)
+}
+
+/// The q quantile of the noncentral F, by bisection on the cdf (monotone in x).
+pub fn ncf_ppf(q: f64, d1: f64, d2: f64, lambda: f64) -> Option<f64> {
+    if !(q > 0.0 && q < 1.0) {
+        return None;
+    }
+    solve_monotone(|x| ncf_cdf(x, d1, d2, lambda), q, true, 1e-14)
 }
 
 /// The noncentrality λ ≥ 0 with P(F ≤ x; d1, d2, λ) = q, if one exists (the cdf falls as λ
@@ -204,28 +197,7 @@ pub fn ncf_lambda_for_cdf(x: f64, d1: f64, d2: f64, q: f64) -> Option<f64> {
     if ncf_cdf(x, d1, d2, 0.0)? < q {
         return Some(0.0);
     }
-    let mut hi = 1.0f64;
-    let mut guard = 0;
-    while ncf_cdf(x, d1, d2, hi)? > q {
-        hi *= 2.0;
-        guard += 1;
-        if guard > 60 {
-            return None;
-        }
-    }
-    let mut lo = 0.0f64;
-    for _ in 0..200 {
-        let mid = 0.5 * (lo + hi);
-        if ncf_cdf(x, d1, d2, mid)? > q {
-            lo = mid
-        } else {
-            hi = mid
-        }
-        if hi - lo <= 1e-12 * hi.max(1e-12) {
-            break;
-        }
-    }
-    Some(0.5 * (lo + hi))
+    solve_monotone(|l| ncf_cdf(x, d1, d2, l), q, false, 1e-12)
 }
 
 #[cfg(test)]
