@@ -25,6 +25,15 @@ def test_wrongly_signed_execute_is_not_executed(kernel):
     sock.send_multipart([b"<IDS|MSG>", b"", b"{}", b"{}", b"{}", b"{}"])
     sock.send_multipart([b"<IDS|MSG>", b"abc"])
     sock.send_multipart([b"garbage"])
+    # Correctly signed frames that are not valid JSON, or lack a msg_type, are dropped after
+    # verification.
+    import hashlib
+    import hmac as hmac_mod
+    for parts in ([b"{", b"{}", b"{}", b"{}"], [b"{}", b"{}", b"{}", b"{}"], [b"[]", b"{}", b"{}", b"{}"]):
+        mac = hmac_mod.new(km.session.key, digestmod=hashlib.sha256)
+        for p in parts:
+            mac.update(p)
+        sock.send_multipart([b"<IDS|MSG>", mac.hexdigest().encode()] + parts)
     assert sock.poll(1500) == 0, "the kernel answered a forged or malformed message"
     # Nothing was broadcast for the forged request either.
     deadline = time.time() + 0.5
