@@ -18,6 +18,7 @@
 //! ```
 #![deny(missing_docs)]
 
+mod analysis;
 pub mod data;
 pub mod design;
 pub mod dist;

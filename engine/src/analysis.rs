@@ -1,0 +1,342 @@
+//! The analysis verbs (`describe`, `anova`, `plot`): a resolved plan, its cells, the model,
+//! and the answer to render.
+
+use crate::data::Dataset;
+use crate::design::{Plan, resolve};
+use crate::error::CellError;
+use crate::lang::ast::{Analysis, PlotKind, Verb};
+use crate::models::describe::{CellSummary, summarise};
+use crate::models::oneway::oneway;
+use crate::render::fmt::{df, es, num, p_report, p_table, stat};
+use crate::render::svg::{Figure, Group, draw};
+use crate::render::{Align, Answer, DisplayTable, Provenance};
+use crate::session::{check_options, one_number};
+use serde_json::{Value as Json, json};
+use std::collections::BTreeMap;
+
+/// The caution printed under analyses.
+pub const CAUTION: &str = "A small p says the data would be surprising if the groups did not differ; it is not the size or the importance of a difference. The F test assumes independent observations, roughly normal residuals and similar spread in every group. Decisions about animals, patients or food safety follow local rules and qualified review.";
+
+/// Runs `describe`, `anova` or `plot` on `ds` (`named`: the dataset was named with `in`).
+pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, CellError> {
+    let allowed: &[&str] = match a.verb {
+        Verb::Anova => &["level"],
+        Verb::Describe | Verb::Plot(_) => &["level"],
+    };
+    check_options(&a.options, a.verb.word(), allowed)?;
+    let mut level = 0.95;
+    for o in &a.options {
+        if o.name.value == "level" {
+            level = one_number(o)?;
+            if !(level > 0.0 && level < 1.0) {
+                return Err(CellError::input(
+                    "`level` is a confidence level between 0 and 1, e.g. 0.95",
+                )
+                .at(o.span));
+            }
+        }
+    }
+    let plan = resolve(a, ds)?;
+    let mut notes = plan.notes.clone();
+    if !named {
+        notes.insert(
+            0,
+            format!(
+                "dataset {} (the one read most recently); name another with `in NAME`",
+                ds.name
+            ),
+        );
+    }
+    let cells = cells_of(&plan, level);
+    for (name, n) in &cells.empty {
+        let _ = n;
+        notes.push(format!(
+            "level {name} has no observations in the rows used and is left out"
+        ));
+    }
+    let factor_label = plan
+        .factors
+        .iter()
+        .map(|f| f.display_name())
+        .collect::<Vec<_>>()
+        .join(" × ");
+    let y_label = plan.response.display_name().to_string();
+    let fig_kind = match a.verb {
+        Verb::Plot(k) => k,
+        _ => PlotKind::Means,
+    };
+    let figure = Figure {
+        kind: fig_kind,
+        groups: cells
+            .groups
+            .iter()
+            .zip(&cells.summaries)
+            .map(|((name, vals), s)| Group {
+                name: name.clone(),
+                values: vals.iter().map(|v| v + plan.y.offset).collect(),
+                mean: s.mean,
+                ci: s.ci_low.zip(s.ci_high),
+            })
+            .collect(),
+        x_label: factor_label.clone(),
+        y_label: y_label.clone(),
+        level,
+    };
+    let svg = draw(&figure);
+    if svg.is_none() {
+        notes.push("the figure could not be drawn for these values".into());
+    }
+    let provenance = Provenance {
+        dataset: ds.name.clone(),
+        source: ds.source.clone(),
+        sha256: ds.sha256.clone(),
+        rows_used: plan.rows.len(),
+        rows_dropped: plan.dropped_missing + plan.dropped_where,
+        read_at: ds.read_at.clone(),
+    };
+    let factor_names: Vec<&str> = plan.factors.iter().map(|f| f.name.as_str()).collect();
+    let design = json!({
+        "between": factor_names, "within": [], "subject": null,
+        "n": plan.rows.len(),
+        "levels": plan.factors.iter().enumerate().map(|(k, f)| (f.name.clone(), json!(plan.levels(k)))).collect::<serde_json::Map<_, _>>(),
+    });
+    let mut answer = Answer {
+        command: a.verb.word().to_string(),
+        figure: svg,
+        provenance: Some(provenance),
+        design,
+        with_bundle: true,
+        ..Default::default()
+    };
+    answer.bundle_tables.insert(
+        "cells".into(),
+        serde_json::to_value(&cells.summaries).unwrap_or(Json::Null),
+    );
+    let cells_table = cells_display(&plan, &cells.summaries, level);
+    match a.verb {
+        Verb::Describe => {
+            answer.title = format!(
+                "{y_label} across {factor_label}: {} cells, {} observations",
+                cells.summaries.len(),
+                plan.rows.len()
+            );
+            answer.tables.push(cells_table);
+        }
+        Verb::Plot(k) => {
+            answer.title = format!(
+                "{y_label} across {factor_label} ({})",
+                match k {
+                    PlotKind::Means => format!(
+                        "means with {}% confidence intervals, every observation",
+                        pct(level)
+                    ),
+                    PlotKind::Box =>
+                        "box plots: median, quartiles, whiskers to 1.5 × IQR; every observation"
+                            .into(),
+                    PlotKind::Points => "every observation".into(),
+                }
+            );
+        }
+        Verb::Anova => {
+            if plan.factors.len() != 1 {
+                return Err(CellError::design(format!(
+                    "this version analyses one factor at a time; {} factors were given",
+                    plan.factors.len()
+                ))
+                .at(a.factors[1].span)
+                .note("give one factor, e.g. `anova Y across A`; factorial designs are planned"));
+            }
+            let fname = &plan.factors[0].name;
+            let fit = oneway(
+                fname,
+                &cells
+                    .groups
+                    .iter()
+                    .map(|(_, v)| v.clone())
+                    .collect::<Vec<_>>(),
+            )
+            .map_err(|e| e.at_if_none(a.factors[0].span))?;
+            notes.extend(fit.notes.iter().cloned());
+            let mut fit = fit;
+            let (df_b, df_w, n_tot) = (fit.rows[0].df, fit.rows[1].df, fit.n as f64);
+            if let Some(fv) = fit.rows[0].f {
+                if let Some(ci) =
+                    crate::models::power::effect_interval(fv, df_b, df_w, n_tot, level)
+                {
+                    let r = &mut fit.rows[0];
+                    r.eta2_ci_low = Some(ci.eta2_low);
+                    r.eta2_ci_high = Some(ci.eta2_high);
+                    r.f_ci_low = Some(ci.f_low);
+                    r.f_ci_high = Some(ci.f_high);
+                    r.level = Some(level);
+                }
+            }
+            let e = fit.effect();
+            answer.title = format!(
+                "One-way ANOVA: {y_label} across {factor_label} ({} levels, {} observations)",
+                fit.k, fit.n
+            );
+            let opt = |x: Option<f64>| x.map(num).unwrap_or_default();
+            answer.tables.push(DisplayTable {
+                caption: "Analysis of variance (between subjects)".into(),
+                columns: vec![
+                    ("Source".into(), Align::Left),
+                    ("df".into(), Align::Right),
+                    ("SS".into(), Align::Right),
+                    ("MS".into(), Align::Right),
+                    ("F".into(), Align::Right),
+                    ("p".into(), Align::Right),
+                    ("η²".into(), Align::Right),
+                    ("ω²".into(), Align::Right),
+                ],
+                rows: fit
+                    .rows
+                    .iter()
+                    .map(|r| {
+                        vec![
+                            r.effect.clone(),
+                            df(r.df),
+                            num(r.ss),
+                            opt(r.ms),
+                            r.f.map(num).unwrap_or_else(|| {
+                                if r.effect == *fname {
+                                    "undefined".into()
+                                } else {
+                                    String::new()
+                                }
+                            }),
+                            r.p.map(p_table).unwrap_or_default(),
+                            opt(r.eta2),
+                            opt(r.omega2),
+                        ]
+                    })
+                    .collect(),
+            });
+            answer.tables.push(cells_table);
+            answer.report = Some(match (e.f, e.p) {
+                (Some(f), Some(p)) => format!(
+                    "{}: F({}, {}) = {}, {}, η² = {}{}, ω² = {}",
+                    fname,
+                    df(e.df),
+                    df(fit.rows[1].df),
+                    stat(f),
+                    p_report(p),
+                    es(e.eta2.unwrap_or(0.0)),
+                    match (e.eta2_ci_low, e.eta2_ci_high) {
+                        (Some(a), Some(b)) =>
+                            format!(", {}% CI [{}, {}]", pct(level), es(a), es(b)),
+                        _ => String::new(),
+                    },
+                    es(e.omega2.unwrap_or(0.0))
+                ),
+                _ => format!(
+                    "{fname}: F undefined (no variation within groups), η² = {}",
+                    es(e.eta2.unwrap_or(0.0))
+                ),
+            });
+            answer.caution = Some(CAUTION.into());
+            answer.bundle_tables.insert(
+                "anova".into(),
+                serde_json::to_value(&fit.rows).unwrap_or(Json::Null),
+            );
+        }
+    }
+    answer.notes = notes;
+    Ok(answer)
+}
+
+struct Cells {
+    /// (label, shifted values) per non-empty cell, in level order.
+    groups: Vec<(String, Vec<f64>)>,
+    summaries: Vec<CellSummary>,
+    /// Cells with no observations.
+    empty: Vec<(String, usize)>,
+}
+
+fn cells_of(plan: &Plan<'_>, level: f64) -> Cells {
+    let nf = plan.factors.len();
+    let sizes: Vec<usize> = (0..nf).map(|k| plan.levels(k).len()).collect();
+    let total: usize = sizes.iter().product();
+    let mut buckets: Vec<Vec<f64>> = vec![Vec::new(); total];
+    for &i in &plan.rows {
+        let mut idx = 0;
+        for k in 0..nf {
+            idx = idx * sizes[k] + plan.code(k, i) as usize;
+        }
+        buckets[idx].push(plan.y.shifted[i]);
+    }
+    let mut out = Cells {
+        groups: Vec::new(),
+        summaries: Vec::new(),
+        empty: Vec::new(),
+    };
+    for (idx, vals) in buckets.into_iter().enumerate() {
+        let mut rem = idx;
+        let mut codes = vec![0usize; nf];
+        for k in (0..nf).rev() {
+            codes[k] = rem % sizes[k];
+            rem /= sizes[k];
+        }
+        let names: Vec<String> = (0..nf).map(|k| plan.levels(k)[codes[k]].clone()).collect();
+        let label = names.join(" / ");
+        if vals.is_empty() {
+            out.empty.push((label, idx));
+            continue;
+        }
+        let levels: BTreeMap<String, String> = plan
+            .factors
+            .iter()
+            .zip(&names)
+            .map(|(f, n)| (f.name.clone(), n.clone()))
+            .collect();
+        out.summaries
+            .push(summarise(levels, &vals, plan.y.offset, level));
+        out.groups.push((label, vals));
+    }
+    out
+}
+
+fn pct(level: f64) -> String {
+    num(level * 100.0)
+}
+
+fn cells_display(plan: &Plan<'_>, cells: &[CellSummary], level: f64) -> DisplayTable {
+    let mut columns: Vec<(String, Align)> = plan
+        .factors
+        .iter()
+        .map(|f| (f.display_name().to_string(), Align::Left))
+        .collect();
+    for h in ["n", "mean", "SD", "SE"] {
+        columns.push((h.into(), Align::Right));
+    }
+    columns.push((format!("{}% CI", pct(level)), Align::Right));
+    let opt = |x: Option<f64>| x.map(num).unwrap_or_else(|| "—".into());
+    let rows = cells
+        .iter()
+        .map(|c| {
+            let mut r: Vec<String> = plan
+                .factors
+                .iter()
+                .map(|f| c.levels.get(&f.name).cloned().unwrap_or_default())
+                .collect();
+            r.push(c.n.to_string());
+            r.push(num(c.mean));
+            r.push(opt(c.sd));
+            r.push(opt(c.se));
+            r.push(match (c.ci_low, c.ci_high) {
+                (Some(a), Some(b)) => format!("{} to {}", num(a), num(b)),
+                _ => "—".into(),
+            });
+            r
+        })
+        .collect();
+    DisplayTable {
+        caption: format!(
+            "{} by cell (mean ± t-based {}% confidence interval)",
+            plan.response.display_name(),
+            pct(level)
+        ),
+        columns,
+        rows,
+    }
+}
