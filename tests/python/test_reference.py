@@ -1,5 +1,6 @@
 """One-way ANOVA and per-cell summaries through the kernel, against scipy (PyPI, version
-pinned in tests/requirements.txt): scipy.stats.f_oneway, scipy.stats.f.sf, scipy.stats.t.ppf."""
+pinned in tests/requirements.txt): scipy.stats.f_oneway, scipy.stats.f.sf, scipy.stats.t.ppf; η² and
+ω² against their published formulas computed here with numpy."""
 import numpy as np
 import pytest
 from scipy import stats
@@ -34,6 +35,14 @@ def test_oneway_matches_scipy_f_oneway_on_seeded_random_designs(kernel, tmp_path
     assert eff["p"] == pytest.approx(ref.pvalue, rel=1e-8)
     assert eff["df"] == k - 1
     assert rows(b, "anova")[1]["df"] == sum(len(g) for g in groups) - k
+    # η² = SS_between / SS_total and ω² = (SS_between − (k − 1)·MS_within) / (SS_total + MS_within)
+    # (Hays 1963), computed here independently with numpy.
+    allv = np.concatenate(groups)
+    ssb = sum(len(g) * (g.mean() - allv.mean()) ** 2 for g in groups)
+    sst = ((allv - allv.mean()) ** 2).sum()
+    msw = (sst - ssb) / (len(allv) - k)
+    assert eff["eta2"] == pytest.approx(ssb / sst, rel=1e-9)
+    assert eff["omega2"] == pytest.approx((ssb - (k - 1) * msw) / (sst + msw), rel=1e-8, abs=1e-12)
     for cell, g in zip(rows(b, "cells"), groups):
         n = len(g)
         half = stats.t.ppf(0.975, n - 1) * np.std(g, ddof=1) / np.sqrt(n)

@@ -77,13 +77,15 @@ pub fn power(design: Design, n: u64, f: f64, alpha: f64) -> Result<f64, CellErro
 /// The smallest n reaching `target`, with the power it achieves.
 pub fn solve_n(design: Design, f: f64, alpha: f64, target: f64) -> Result<(u64, f64), CellError> {
     let reach = |n: u64| power(design, n, f, alpha).map(|p| p >= target);
-    if !reach(MAX_N)? {
-        return Err(CellError::input(format!(
-            "power {target} is not reached with n ≤ {MAX_N}: the effect f = {f} is too small to detect with any practical sample"
-        )));
-    }
+    // Double from 2 until the target is reached (so a large effect never evaluates n = MAX_N,
+    // whose noncentrality would be needlessly huge), then bisect.
     let (mut lo, mut hi) = (1u64, 2u64);
     while !reach(hi)? {
+        if hi == MAX_N {
+            return Err(CellError::input(format!(
+                "power {target} is not reached with n ≤ {MAX_N}: the effect f = {f} is too small to detect with any practical sample"
+            )));
+        }
         lo = hi;
         hi = (hi * 2).min(MAX_N);
     }
@@ -163,6 +165,13 @@ mod tests {
         assert!(p >= 0.8);
         assert!(power(d, n - 1, 0.25, 0.05).unwrap() < 0.8);
         assert!(solve_n(d, 0.001, 0.05, 0.99).is_err());
+        // A very large effect is solved without evaluating the noncentral F at n = MAX_N.
+        assert_eq!(
+            solve_n(Design::Groups { k: 1000 }, 5.0, 0.05, 0.8)
+                .unwrap()
+                .0,
+            2
+        );
     }
 
     #[test]
