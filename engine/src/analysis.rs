@@ -19,9 +19,11 @@ pub const CAUTION: &str = "A small p says the data would be surprising if the gr
 
 /// Runs `describe`, `anova` or `plot` on `ds` (`named`: the dataset was named with `in`).
 pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, CellError> {
-    let allowed: &[&str] = match a.verb {
-        Verb::Anova => &["level"],
-        Verb::Describe | Verb::Plot(_) => &["level"],
+    let allowed: &[&str] = match (a.verb, a.subject.is_some()) {
+        (Verb::Anova, true) => &["level", "ss", "correction", "duplicates"],
+        (_, true) => &["level", "duplicates"],
+        (Verb::Anova, false) => &["level"],
+        (Verb::Describe | Verb::Plot(_), false) => &["level"],
     };
     check_options(&a.options, a.verb.word(), allowed)?;
     let mut level = 0.95;
@@ -36,6 +38,11 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
             }
         }
     }
+    if a.verb == Verb::Plot(PlotKind::Profile) && a.subject.is_none() {
+        return Err(CellError::design("a profile figure needs `subject COLUMN`")
+            .at(a.verb_span)
+            .note("e.g. `plot profile length across day subject fish`"));
+    }
     let plan = resolve(a, ds)?;
     let mut notes = plan.notes.clone();
     if !named {
@@ -46,6 +53,9 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
                 ds.name
             ),
         );
+    }
+    if plan.subject.is_some() {
+        return crate::repeated::run(a, ds, plan, notes, level);
     }
     let cells = cells_of(&plan, level);
     for (name, n) in &cells.empty {
@@ -86,14 +96,7 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
     if svg.is_none() {
         notes.push("the figure could not be drawn for these values".into());
     }
-    let provenance = Provenance {
-        dataset: ds.name.clone(),
-        source: ds.source.clone(),
-        sha256: ds.sha256.clone(),
-        rows_used: plan.rows.len(),
-        rows_dropped: plan.dropped_missing + plan.dropped_where,
-        read_at: ds.read_at.clone(),
-    };
+    let provenance = provenance_of(ds, &plan);
     let factor_names: Vec<&str> = plan.factors.iter().map(|f| f.name.as_str()).collect();
     let design = json!({
         "between": factor_names, "within": [], "subject": null,
@@ -133,7 +136,7 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
                     PlotKind::Box =>
                         "box plots: median, quartiles, whiskers to 1.5 × IQR; every observation"
                             .into(),
-                    PlotKind::Points => "every observation".into(),
+                    PlotKind::Points | PlotKind::Profile => "every observation".into(),
                 }
             );
         }
@@ -296,8 +299,21 @@ fn cells_of(plan: &Plan<'_>, level: f64) -> Cells {
     out
 }
 
-fn pct(level: f64) -> String {
+/// A confidence level as a percentage ("95").
+pub(crate) fn pct(level: f64) -> String {
     num(level * 100.0)
+}
+
+/// Where the numbers of `plan` came from.
+pub(crate) fn provenance_of(ds: &Dataset, plan: &Plan<'_>) -> Provenance {
+    Provenance {
+        dataset: ds.name.clone(),
+        source: ds.source.clone(),
+        sha256: ds.sha256.clone(),
+        rows_used: plan.rows.len(),
+        rows_dropped: plan.dropped_missing + plan.dropped_where,
+        read_at: ds.read_at.clone(),
+    }
 }
 
 fn cells_display(plan: &Plan<'_>, cells: &[CellSummary], level: f64) -> DisplayTable {

@@ -19,6 +19,8 @@ pub struct Plan<'a> {
     pub y: &'a NumericColumn,
     /// The factor columns with their level names.
     pub factors: Vec<&'a Column>,
+    /// The `subject` column, if given.
+    pub subject: Option<&'a Column>,
     /// Row indices kept (by `where` and complete values).
     pub rows: Vec<usize>,
     /// Rows set aside for missing values.
@@ -84,12 +86,24 @@ pub fn resolve<'a>(a: &Analysis, ds: &'a Dataset) -> Result<Plan<'a>, CellError>
             return Err(e.note("fix the value in the file, or mark it missing (empty, NA or .)"));
         }
     };
-    if a.subject.is_some() {
-        return Err(CellError::design(
-            "repeated-measures designs (`subject`) are not available in this version yet",
-        )
-        .at(a.subject.as_ref().map(|s| s.span).unwrap_or(a.verb_span)));
-    }
+    let subject = match &a.subject {
+        Some(s) => {
+            let col = column(ds, s, "the subject")?;
+            if col.name == response.name {
+                return Err(CellError::design("the response cannot also be the subject").at(s.span));
+            }
+            if a.factors.iter().any(|f| f.value == col.name) {
+                return Err(CellError::design(format!(
+                    "\"{}\" is named both as a factor and as the subject",
+                    col.name
+                ))
+                .at(s.span)
+                .note("the subject column identifies the units; the factors are the conditions"));
+            }
+            Some(col)
+        }
+        None => None,
+    };
     let mut factors = Vec::new();
     for f in &a.factors {
         let col = column(ds, f, "a factor")?;
@@ -125,6 +139,7 @@ pub fn resolve<'a>(a: &Analysis, ds: &'a Dataset) -> Result<Plan<'a>, CellError>
             continue;
         }
         let miss = y.values[i].is_nan()
+            || subject.is_some_and(|c| c.text(i).is_empty())
             || factors
                 .iter()
                 .any(|c| matches!(&c.data, ColumnData::Factor(f) if f.codes[i] == MISSING));
@@ -155,7 +170,7 @@ pub fn resolve<'a>(a: &Analysis, ds: &'a Dataset) -> Result<Plan<'a>, CellError>
         let why = if dropped_where == ds.n_rows() {
             "the where clause keeps no rows"
         } else {
-            "no rows have both the response and the factors present"
+            "no rows have the response, the factors and the subject all present"
         };
         return Err(CellError::data(format!("{why}: there is nothing to analyse")).at(a.verb_span));
     }
@@ -164,6 +179,7 @@ pub fn resolve<'a>(a: &Analysis, ds: &'a Dataset) -> Result<Plan<'a>, CellError>
         response,
         y,
         factors,
+        subject,
         rows,
         dropped_missing: missing_lines.len(),
         dropped_where,

@@ -23,6 +23,21 @@ pub fn f_sf(f: f64, d1: f64, d2: f64) -> Option<f64> {
     checked_beta_reg(d2 / 2.0, d1 / 2.0, x).ok()
 }
 
+/// P(χ² > x) for χ² with `k` degrees of freedom: the regularized upper incomplete gamma
+/// Q(k/2, x/2) (Abramowitz & Stegun 1964, 26.4.19), computed directly.
+pub fn chi2_sf(x: f64, k: f64) -> Option<f64> {
+    if !(k > 0.0) || x.is_nan() {
+        return None;
+    }
+    if x <= 0.0 {
+        return Some(1.0);
+    }
+    if x.is_infinite() {
+        return Some(0.0);
+    }
+    statrs::function::gamma::checked_gamma_ur(k / 2.0, x / 2.0).ok()
+}
+
 /// The `q` quantile of Student's t with `df` degrees of freedom.
 pub fn t_quantile(q: f64, df: f64) -> Option<f64> {
     if !(df > 0.0) || !(q > 0.0 && q < 1.0) {

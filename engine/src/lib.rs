@@ -28,7 +28,9 @@ pub mod lang;
 pub mod models;
 mod power;
 pub mod render;
+mod repeated;
 mod session;
+pub mod subjects;
 
 pub use error::{CellError, ErrorKind, Span};
 pub use session::{Completion, Inspection, Session};

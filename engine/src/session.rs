@@ -100,6 +100,38 @@ impl Session {
                 options,
             } => self.read(path, name, options).map(Some),
             StmtKind::Show { name, options } => self.show(name, options).map(Some),
+            StmtKind::Unpivot {
+                source,
+                columns,
+                factor,
+                value,
+                new,
+            } => {
+                let (ds, _) = self.dataset(Some(source))?;
+                let long = crate::data::reshape::unpivot(ds, columns, factor, value, &new.value)?;
+                let (rows, k) = (ds.n_rows(), columns.len());
+                self.datasets.insert(new.value.clone(), long);
+                self.current = Some(new.value.clone());
+                let mut a = self.show(new, &[])?;
+                a.command = "unpivot".into();
+                a.notes.insert(
+                    0,
+                    format!(
+                        "{} rows × {k} columns of {} stacked into {} rows: {} (levels {}) and {}",
+                        rows,
+                        source.value,
+                        rows * k,
+                        factor.value,
+                        columns
+                            .iter()
+                            .map(|c| c.value.as_str())
+                            .collect::<Vec<_>>()
+                            .join(", "),
+                        value.value
+                    ),
+                );
+                Ok(Some(a))
+            }
             StmtKind::Levels { target, order } => self.levels(target, order).map(Some),
             StmtKind::Label { target, text } => {
                 let (ds, col) = self.column_target(target)?;

@@ -292,6 +292,17 @@ enum Numeric {
     No,
 }
 
+/// A numeric column from cell texts (`None` missing), or `None` if a text is not a finite number.
+pub(crate) fn numeric_column(
+    cells: &[Option<String>],
+    decimal_comma: bool,
+) -> Option<NumericColumn> {
+    match numeric(cells, decimal_comma) {
+        Numeric::Yes(c) => Some(c),
+        _ => None,
+    }
+}
+
 fn numeric(cells: &[Option<String>], decimal_comma: bool) -> Numeric {
     let norm = |s: &str| {
         if decimal_comma {

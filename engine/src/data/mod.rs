@@ -7,6 +7,7 @@
 
 pub mod csv;
 pub mod decimal;
+pub mod reshape;
 
 /// Marker code for a missing factor value.
 pub const MISSING: u32 = u32::MAX;

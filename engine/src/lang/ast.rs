@@ -63,6 +63,19 @@ pub enum StmtKind {
         /// The label.
         text: Spanned<String>,
     },
+    /// `unpivot NAME columns C1, C2, … into FACTOR, VALUE as NEW`
+    Unpivot {
+        /// The wide dataset.
+        source: Name,
+        /// The columns to stack.
+        columns: Vec<Name>,
+        /// The new factor (its levels are the column names).
+        factor: Name,
+        /// The new numeric column.
+        value: Name,
+        /// The long dataset's name.
+        new: Name,
+    },
     /// `describe`, `anova`, `plot KIND` with the shared clauses.
     Analysis(Analysis),
     /// `help [TOPIC]`
@@ -126,14 +139,17 @@ pub enum PlotKind {
     Box,
     /// Every point.
     Points,
+    /// Each subject's line across a within factor, cell means with CIs (needs `subject`).
+    Profile,
 }
 
 impl PlotKind {
     /// Every kind with its word.
-    pub const ALL: [(&'static str, PlotKind); 3] = [
+    pub const ALL: [(&'static str, PlotKind); 4] = [
         ("means", PlotKind::Means),
         ("box", PlotKind::Box),
         ("points", PlotKind::Points),
+        ("profile", PlotKind::Profile),
     ];
     /// The word.
     pub fn word(self) -> &'static str {
@@ -141,6 +157,7 @@ impl PlotKind {
             PlotKind::Means => "means",
             PlotKind::Box => "box",
             PlotKind::Points => "points",
+            PlotKind::Profile => "profile",
         }
     }
 }

@@ -5,8 +5,8 @@ use super::lexer::{Tok, Token, lex};
 use crate::error::{CellError, Span, nearest};
 
 /// The verbs a cell may start a statement with (without the test-only `pause`).
-pub const VERBS: [&str; 8] = [
-    "read", "show", "levels", "label", "describe", "anova", "plot", "help",
+pub const VERBS: [&str; 10] = [
+    "read", "unpivot", "show", "levels", "label", "describe", "anova", "plot", "power", "help",
 ];
 
 /// Clause keywords after `across`.
@@ -148,6 +148,45 @@ impl<'a> Parser<'a> {
                     options,
                 }
             }
+            "unpivot" => {
+                let source = self.name("the name of the wide dataset")?;
+                self.expect_word("columns")?;
+                let mut columns = vec![self.name("a column to stack")?];
+                while matches!(
+                    self.peek(),
+                    Some(Token {
+                        kind: Tok::Comma,
+                        ..
+                    })
+                ) {
+                    self.pos += 1;
+                    columns.push(self.name("a column after the comma")?);
+                }
+                self.expect_word("into").map_err(|e| {
+                    e.note("e.g. `unpivot wide columns wk1, wk2 into week, height as long`")
+                })?;
+                let factor = self.name("the name of the new factor")?;
+                if !matches!(
+                    self.peek(),
+                    Some(Token {
+                        kind: Tok::Comma,
+                        ..
+                    })
+                ) {
+                    return Err(self.unexpected("a comma and the name of the value column"));
+                }
+                self.pos += 1;
+                let value = self.name("the name of the value column")?;
+                self.expect_word("as")?;
+                let new = self.name("a name for the long dataset")?;
+                StmtKind::Unpivot {
+                    source,
+                    columns,
+                    factor,
+                    value,
+                    new,
+                }
+            }
             "show" => {
                 let name = self.name("the name of a dataset")?;
                 let options = self.options()?;
@@ -176,7 +215,7 @@ impl<'a> Parser<'a> {
             "describe" => StmtKind::Analysis(self.analysis(Verb::Describe, verb_span)?),
             "anova" => StmtKind::Analysis(self.analysis(Verb::Anova, verb_span)?),
             "plot" => {
-                let kind_tok = self.name("a figure kind (means, box or points)")?;
+                let kind_tok = self.name("a figure kind (means, box, points or profile)")?;
                 let kind = PlotKind::ALL
                     .iter()
                     .find(|(w, _)| *w == kind_tok.value)
@@ -186,7 +225,7 @@ impl<'a> Parser<'a> {
                             kind_tok.span,
                             format!("`{}` is not a figure kind", kind_tok.value),
                         )
-                        .note("figure kinds: means, box, points")
+                        .note("figure kinds: means, box, points, profile")
                         .suggest(nearest(
                             &kind_tok.value,
                             PlotKind::ALL.iter().map(|(w, _)| *w),

@@ -2,6 +2,8 @@
 //! references; models take plain numbers and never look up names.
 
 pub mod describe;
+pub mod linear;
 pub mod oneway;
 pub mod power;
+pub mod repeated;
 pub mod sums;

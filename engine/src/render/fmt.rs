@@ -33,6 +33,18 @@ pub fn df(x: f64) -> String {
     }
 }
 
+/// Corrected (fractional) df in a sentence: whole numbers plainly, else two decimals below 10
+/// and one from 10 (`F(2.10, 69.4)`).
+pub fn df_corrected(x: f64) -> String {
+    if (x - x.round()).abs() < 1e-9 {
+        format!("{}", x.round() as i64)
+    } else if x < 10.0 {
+        format!("{x:.2}")
+    } else {
+        format!("{x:.1}")
+    }
+}
+
 /// p in a table: four decimals, or "< .0001".
 pub fn p_table(p: f64) -> String {
     if p < 0.0001 {

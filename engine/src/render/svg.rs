@@ -215,7 +215,7 @@ pub fn draw(fig: &Figure) -> Option<String> {
                         )))
                         .ok()?;
                 }
-                PlotKind::Points => {}
+                PlotKind::Points | PlotKind::Profile => {}
             }
         }
         // Level names under their groups (drawn directly: the x axis is positional).
@@ -231,9 +231,193 @@ pub fn draw(fig: &Figure) -> Option<String> {
     Some(buf)
 }
 
+/// One line group of a profile figure: a between group (and levels of other within factors).
+#[derive(Debug, Clone)]
+pub struct Series {
+    /// Legend text.
+    pub name: String,
+    /// Cell mean at each x level.
+    pub means: Vec<f64>,
+    /// CI at each x level, if defined.
+    pub ci: Vec<Option<(f64, f64)>>,
+    /// Each subject's values across the x levels.
+    pub subjects: Vec<Vec<f64>>,
+}
+
+/// A profile figure: a within factor on x, each subject's line faint, means with CIs bold.
+#[derive(Debug, Clone)]
+pub struct Profile {
+    /// The x levels (a within factor).
+    pub x_levels: Vec<String>,
+    /// Line groups.
+    pub series: Vec<Series>,
+    /// x-axis label.
+    pub x_label: String,
+    /// y-axis label.
+    pub y_label: String,
+}
+
+/// Draws a profile figure; `None` if it cannot be drawn.
+pub fn draw_profile(fig: &Profile) -> Option<String> {
+    let k = fig.x_levels.len();
+    if k == 0 || fig.series.is_empty() {
+        return None;
+    }
+    let mut lo = f64::INFINITY;
+    let mut hi = f64::NEG_INFINITY;
+    for s in &fig.series {
+        for v in s.subjects.iter().flatten().chain(&s.means) {
+            lo = lo.min(*v);
+            hi = hi.max(*v);
+        }
+        for (a, b) in s.ci.iter().flatten() {
+            lo = lo.min(*a);
+            hi = hi.max(*b);
+        }
+    }
+    if !lo.is_finite() || !hi.is_finite() {
+        return None;
+    }
+    let pad = if hi > lo {
+        (hi - lo) * 0.08
+    } else {
+        lo.abs().max(1.0) * 0.1
+    };
+    let (lo, hi) = (lo - pad, hi + pad);
+    let m = fig.series.len();
+    // Series side by side at each level, so that intervals do not overlap.
+    let offset = |si: usize| {
+        if m == 1 {
+            0.0
+        } else {
+            (si as f64 - (m - 1) as f64 / 2.0) * (0.25 / m as f64)
+        }
+    };
+    let mut buf = String::new();
+    let width = (200 + 110 * k as u32).clamp(420, 900);
+    {
+        let root = SVGBackend::with_string(&mut buf, (width, 380)).into_drawing_area();
+        root.fill(&WHITE).ok()?;
+        let mut chart = ChartBuilder::on(&root)
+            .margin(14)
+            .x_label_area_size(44)
+            .y_label_area_size(62)
+            .build_cartesian_2d(-0.4f64..(k as f64 - 0.6), lo..hi)
+            .ok()?;
+        let fmt_x = |_: &f64| String::new();
+        chart
+            .configure_mesh()
+            .disable_x_mesh()
+            .light_line_style(TRANSPARENT)
+            .bold_line_style(RGBColor(0xe4, 0xe4, 0xe4))
+            .x_labels(0)
+            .x_label_formatter(&fmt_x)
+            .x_desc(fig.x_label.as_str())
+            .y_desc(fig.y_label.as_str())
+            .label_style(("sans-serif", 13))
+            .axis_desc_style(("sans-serif", 14))
+            .draw()
+            .ok()?;
+        for (si, s) in fig.series.iter().enumerate() {
+            let colour = PALETTE[si % PALETTE.len()];
+            let dx = offset(si);
+            for subj in &s.subjects {
+                chart
+                    .draw_series(std::iter::once(PathElement::new(
+                        subj.iter()
+                            .enumerate()
+                            .map(|(x, &v)| (x as f64 + dx, v))
+                            .collect::<Vec<_>>(),
+                        colour.mix(0.22).stroke_width(1),
+                    )))
+                    .ok()?;
+            }
+        }
+        for (si, s) in fig.series.iter().enumerate() {
+            let colour = PALETTE[si % PALETTE.len()];
+            let dx = offset(si);
+            for (x, ci) in s.ci.iter().enumerate() {
+                if let Some((a, b)) = ci {
+                    let xm = x as f64 + dx;
+                    chart
+                        .draw_series(std::iter::once(PathElement::new(
+                            vec![(xm, *a), (xm, *b)],
+                            colour.stroke_width(2),
+                        )))
+                        .ok()?;
+                }
+            }
+            chart
+                .draw_series(LineSeries::new(
+                    s.means.iter().enumerate().map(|(x, &v)| (x as f64 + dx, v)),
+                    colour.stroke_width(3),
+                ))
+                .ok()?
+                .label(s.name.clone())
+                .legend(move |(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 18, y)], colour.stroke_width(3))
+                });
+            chart
+                .draw_series(
+                    s.means
+                        .iter()
+                        .enumerate()
+                        .map(|(x, &v)| Circle::new((x as f64 + dx, v), 5, colour.filled())),
+                )
+                .ok()?;
+        }
+        if m > 1 || !fig.series[0].name.is_empty() {
+            chart
+                .configure_series_labels()
+                .position(SeriesLabelPosition::UpperLeft)
+                .background_style(WHITE.mix(0.9))
+                .border_style(RGBColor(0xbb, 0xbb, 0xbb))
+                .label_font(("sans-serif", 12))
+                .draw()
+                .ok()?;
+        }
+        let style =
+            TextStyle::from(("sans-serif", 13).into_font()).pos(Pos::new(HPos::Center, VPos::Top));
+        for (i, n) in fig.x_levels.iter().enumerate() {
+            let (px, py) = chart.backend_coord(&(i as f64, lo));
+            root.draw(&Text::new(n.clone(), (px, py + 6), style.clone()))
+                .ok()?;
+        }
+        root.present().ok()?;
+    }
+    Some(buf)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn profile_draws_subject_lines_and_means() {
+        let fig = Profile {
+            x_levels: vec!["d1".into(), "d2".into(), "<d3>".into()],
+            series: vec![
+                Series {
+                    name: "low".into(),
+                    means: vec![1.0, 2.0, 3.0],
+                    ci: vec![Some((0.5, 1.5)), None, Some((2.0, 4.0))],
+                    subjects: vec![vec![1.0, 2.5, 3.0], vec![1.0, 1.5, 3.0]],
+                },
+                Series {
+                    name: "high".into(),
+                    means: vec![2.0, 3.0, 5.0],
+                    ci: vec![None; 3],
+                    subjects: vec![vec![2.0, 3.0, 5.0]],
+                },
+            ],
+            x_label: "day".into(),
+            y_label: "Length (mm)".into(),
+        };
+        let s = draw_profile(&fig).unwrap();
+        assert!(s.starts_with("<svg"));
+        assert!(s.contains("&lt;d3&gt;") && s.contains("low") && s.contains("high"));
+        assert!(s.matches("<circle").count() >= 6);
+    }
 
     fn fig(kind: PlotKind, name: &str) -> Figure {
         Figure {
