@@ -22,7 +22,7 @@ MEANS = {
 }
 PLANT_SD = 2.2
 NOISE_SD = 1.4
-RHO = 0.6
+RHO = 0.9
 
 
 def main():
@@ -37,7 +37,8 @@ def main():
             row = {"plant": f"T{plant:02d}", "shade": shade}
             for week in range(4):
                 if week > 0:
-                    e = RHO * e + rng.gauss(0.0, NOISE_SD * (1 - RHO * RHO) ** 0.5) + 0.35 * week * rng.gauss(0.0, 1.0)
+                    # Readings drift together, and the scatter grows as the plants grow.
+                    e = RHO * e + rng.gauss(0.0, NOISE_SD * week)
                 row[f"week{week + 1}"] = round(MEANS[shade][week] + vigour + e, 1)
             rows.append(row)
     rows[16]["week3"] = ""
