@@ -43,6 +43,13 @@ pub const VERBS: &[VerbHelp] = &[
         example: "read \"data/feeding.csv\" as trial with factor pen",
     },
     VerbHelp {
+        verb: "unpivot",
+        usage: "unpivot NAME columns C1, C2, … into FACTOR, VALUE as NEW",
+        summary: "Turns a wide layout (one numeric column per week, dose or condition) into the long layout the analyses read: dataset NEW has one row per value, a factor FACTOR whose levels are the column names in the order listed, the numbers in VALUE, and every other column repeated. Messages still point to the file's lines.",
+        options: &[],
+        example: "unpivot log columns week1, week2, week3 into week, height as plants",
+    },
+    VerbHelp {
         verb: "show",
         usage: "show NAME [with rows N]",
         summary: "Shows the first rows of a dataset with each column's type, levels and missing count.",
@@ -65,28 +72,48 @@ pub const VERBS: &[VerbHelp] = &[
     },
     VerbHelp {
         verb: "describe",
-        usage: "describe Y across F [in NAME] [where CONDITION] [with level L]",
-        summary: "Per level of F: n, mean, SD, SE and a confidence interval of the mean, with a figure of the means and every observation.",
-        options: &[(
-            "level L",
-            "confidence level of the intervals (default 0.95)",
-        )],
+        usage: "describe Y across F… [in NAME] [subject S] [where CONDITION] [with level L]",
+        summary: "Per cell of the factors: n, mean, SD, SE and a confidence interval of the mean. With `subject S`, the factors are classified as within or between subjects and the summaries are over subjects (one value per subject per cell).",
+        options: &[
+            (
+                "level L",
+                "confidence level of the intervals (default 0.95)",
+            ),
+            (
+                "duplicates error",
+                "with `subject`: refuse several values of one subject in one cell (default: average them, with a note)",
+            ),
+        ],
         example: "describe gain across feed in trial",
     },
     VerbHelp {
         verb: "anova",
-        usage: "anova Y across F [in NAME] [where CONDITION]",
-        summary: "One-way between-subjects analysis of variance of Y across the levels of F: table (df, SS, MS, F, p, η², ω²), a confidence interval for η² and f, figure, report sentence and notes.",
-        options: &[(
-            "level L",
-            "confidence level of the intervals (default 0.95)",
-        )],
-        example: "anova gain across feed in trial where pen != \"P4\"",
+        usage: "anova Y across F… [in NAME] [subject S] [where CONDITION]",
+        summary: "Without `subject`: one-way between-subjects ANOVA of Y across F (df, SS, MS, F, p, η², ω², a confidence interval for η² and f). With `subject S`: repeated-measures or mixed ANOVA; each factor is classified from the data as within or between subjects, each effect is tested against its own error term, within effects get Mauchly's test and the Greenhouse–Geisser, Huynh–Feldt and lower-bound corrections, and the table gives partial and generalized η². Subjects missing a cell are set aside by name.",
+        options: &[
+            (
+                "level L",
+                "confidence level of the intervals (default 0.95)",
+            ),
+            (
+                "correction auto|gg|hf|none",
+                "with `subject`: the sphericity correction; auto (default) is Greenhouse–Geisser when ε_GG < .75, else Huynh–Feldt",
+            ),
+            (
+                "ss 2|3",
+                "with `subject` and between factors: type 2 (default) or type 3 sums of squares",
+            ),
+            (
+                "duplicates error",
+                "with `subject`: refuse several values of one subject in one cell (default: average them)",
+            ),
+        ],
+        example: "anova length across dose, day subject fish",
     },
     VerbHelp {
         verb: "plot",
-        usage: "plot KIND Y across F [in NAME] [where CONDITION]",
-        summary: "A figure of Y across F. KIND: means (means with 95% CIs beside every observation), box (box plots with every observation), points (every observation).",
+        usage: "plot KIND Y across F… [in NAME] [subject S] [where CONDITION]",
+        summary: "A figure of Y across F. KIND: means (means with 95% CIs beside every observation), box (box plots with every observation), points (every observation), profile (needs `subject`: each subject's line faint across the first within factor, cell means with CIs bold, one colour per between group).",
         options: &[(
             "level L",
             "confidence level of the intervals in `means` (default 0.95)",
@@ -147,4 +174,15 @@ pub fn verb_text(h: &VerbHelp) -> String {
     }
     s.push_str(&format!("\nexample:\n  {}", h.example));
     s
+}
+
+#[cfg(test)]
+mod tests {
+    #[test]
+    fn every_verb_has_an_entry_with_its_own_example() {
+        for v in crate::lang::VERBS {
+            let h = super::verb(v).unwrap_or_else(|| panic!("no help for {v}"));
+            assert!(h.example.starts_with(v), "{v}: {}", h.example);
+        }
+    }
 }

@@ -183,16 +183,22 @@ fn cells_table(
     }
 }
 
+/// Most subject lines drawn in a profile figure; beyond it an evenly spaced sample is drawn.
+const MAX_LINES: usize = 300;
+
 /// The profile figure: the first within factor on x; one series per between group and level
-/// of any other within factor.
+/// of any other within factor. Returns the SVG and, when subject lines were sampled, a note.
 fn profile(
     sd: &SubjectDesign,
     cells: &[(usize, usize, CellSummary, Vec<f64>)],
     y_label: &str,
-) -> Option<String> {
-    let first = sd.within.first()?;
+) -> (Option<String>, Option<String>) {
+    let Some(first) = sd.within.first() else {
+        return (None, None);
+    };
     let k = first.levels.len();
     let rest = sd.n_within_cells() / k;
+    let step = (sd.ids.len() * rest).div_ceil(MAX_LINES).max(1);
     let g_cells: usize = sd
         .between
         .iter()
@@ -217,18 +223,26 @@ fn profile(
                     .map(|x| summ(x).ci_low.zip(summ(x).ci_high))
                     .collect(),
                 subjects: (0..sd.ids.len())
-                    .filter(|&s| sd.group[s] == g)
+                    .filter(|&s| sd.group[s] == g && s % step == 0)
                     .map(|s| (0..k).map(|x| sd.y[(s, cell(x))] + sd.offset).collect())
                     .collect(),
             });
         }
     }
-    draw_profile(&Profile {
+    let note = (step > 1).then(|| {
+        format!(
+            "the figure draws every {step}th subject's line ({} of {} subjects); the means and intervals use all",
+            sd.ids.len().div_ceil(step),
+            sd.ids.len()
+        )
+    });
+    let svg = draw_profile(&Profile {
         x_levels: first.levels.clone(),
         series,
         x_label: first.display.clone(),
         y_label: y_label.to_string(),
-    })
+    });
+    (svg, note)
 }
 
 fn sentence(r: &RmRow) -> String {
@@ -444,7 +458,9 @@ pub(crate) fn run(
                 "{y_label} across {factor_text}: each subject's line, cell means with {}% confidence intervals",
                 pct(level)
             );
-            answer.figure = profile(&sd, &cells, &y_label);
+            let (svg, note) = profile(&sd, &cells, &y_label);
+            answer.figure = svg;
+            notes.extend(note);
         }
         Verb::Plot(kind) => {
             answer.title = format!(
@@ -524,7 +540,9 @@ pub(crate) fn run(
             answer.report = Some(rm.rows.iter().map(sentence).collect::<Vec<_>>().join("; "));
             answer.caution = Some(format!("{CAUTION} {CAUTION_RM}"));
             if !sd.within.is_empty() {
-                answer.figure = profile(&sd, &cells, &y_label);
+                let (svg, note) = profile(&sd, &cells, &y_label);
+                answer.figure = svg;
+                notes.extend(note);
             }
             answer.bundle_tables.insert(
                 "anova".into(),
