@@ -85,7 +85,36 @@ def cold_start(name):
         if r["msg_type"] == "kernel_info_reply":
             break
     elapsed = time.perf_counter() - t0
+    wait_for_iopub(kc)
     return km, kc, elapsed
+
+
+def wait_for_iopub(kc, deadline=30.0):
+    """Messages published before the client's subscription reaches the kernel are lost, so ask
+    until a kernel_info request's status message arrives on IOPub (outside the timed part)."""
+    end = time.perf_counter() + deadline
+    while time.perf_counter() < end:
+        msg_id = kc.kernel_info()
+        t = time.perf_counter() + 0.25
+        while time.perf_counter() < t:
+            try:
+                m = kc.get_iopub_msg(timeout=0.05)
+            except Exception:
+                continue
+            if m["parent_header"].get("msg_id") == msg_id and m["msg_type"] == "status":
+                # Drain this request's remaining status message and its reply.
+                time.sleep(0.01)
+                while True:
+                    try:
+                        kc.get_iopub_msg(timeout=0.01)
+                    except Exception:
+                        break
+                while True:
+                    try:
+                        kc.get_shell_msg(timeout=0.01)
+                    except Exception:
+                        return
+    raise RuntimeError("IOPub never connected")
 
 
 def measure(name, setup, cell, starts, trips):
