@@ -19,10 +19,13 @@ pub const CAUTION: &str = "A small p says the data would be surprising if the gr
 
 /// Runs `describe`, `anova` or `plot` on `ds` (`named`: the dataset was named with `in`).
 pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, CellError> {
+    let residual_figure = matches!(a.verb, Verb::Plot(PlotKind::Qq | PlotKind::Residuals));
     let allowed: &[&str] = match (a.verb, a.subject.is_some()) {
+        (Verb::Check, _) => &[],
+        _ if residual_figure => &[],
         (Verb::Anova, true) => &["level", "ss", "correction", "duplicates"],
         (_, true) => &["level", "duplicates"],
-        (Verb::Anova, false) => &["level"],
+        (Verb::Anova, false) => &["level", "ss", "welch"],
         (Verb::Describe | Verb::Plot(_), false) => &["level"],
     };
     check_options(&a.options, a.verb.word(), allowed)?;
@@ -54,12 +57,15 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
             ),
         );
     }
+    if a.verb == Verb::Check || residual_figure {
+        return crate::checks::run(a, ds, plan, notes);
+    }
     if plan.subject.is_some() {
         return crate::repeated::run(a, ds, plan, notes, level);
     }
     let cells = cells_of(&plan, level);
-    for (name, n) in &cells.empty {
-        let _ = n;
+    let factorial = a.verb == Verb::Anova && plan.factors.len() > 1;
+    for (name, _) in cells.empty.iter().filter(|_| !factorial) {
         notes.push(format!(
             "level {name} has no observations in the rows used and is left out"
         ));
@@ -117,6 +123,8 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
     );
     let cells_table = cells_display(&plan, &cells.summaries, level);
     match a.verb {
+        // `check` is answered by checks::run before this point.
+        Verb::Check => return Err(CellError::input("`check` takes no figure kind")),
         Verb::Describe => {
             answer.title = format!(
                 "{y_label} across {factor_label}: {} cells, {} observations",
@@ -136,18 +144,47 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
                     PlotKind::Box =>
                         "box plots: median, quartiles, whiskers to 1.5 × IQR; every observation"
                             .into(),
-                    PlotKind::Points | PlotKind::Profile => "every observation".into(),
+                    _ => "every observation".into(),
                 }
             );
         }
         Verb::Anova => {
-            if plan.factors.len() != 1 {
-                return Err(CellError::design(format!(
-                    "this version analyses one factor at a time; {} factors were given",
-                    plan.factors.len()
-                ))
-                .at(a.factors[1].span)
-                .note("give one factor, e.g. `anova Y across A`; factorial designs are planned"));
+            let opts = crate::repeated::options(&a.options)?;
+            let welch_opt = a.options.iter().find(|o| o.name.value == "welch");
+            if let Some(o) = welch_opt {
+                if !o.values.is_empty() {
+                    return Err(
+                        CellError::input("`welch` takes no value: write `with welch`").at(o.span),
+                    );
+                }
+            }
+            if plan.factors.len() > 1 {
+                if let Some(o) = welch_opt {
+                    return Err(CellError::input(
+                        "Welch's test is for one factor; with several, consider `check` and a randomisation test",
+                    )
+                    .at(o.span));
+                }
+                let lay = crate::factorial::layout(&plan, a)?;
+                let summaries = crate::factorial::summaries(&lay, plan.y.offset, level);
+                let parts = crate::factorial::run(&lay, &summaries, &y_label, opts.ss)
+                    .map_err(|e| e.at_if_none(a.verb_span))?;
+                notes.extend(lay.notes.iter().cloned());
+                notes.extend(parts.notes);
+                answer.title = parts.title;
+                answer.tables.push(parts.table);
+                answer.tables.push(cells_table);
+                answer.report = Some(parts.report);
+                answer.figure = parts.figure;
+                answer.caution = Some(CAUTION.into());
+                answer.design = crate::factorial::design_json(&lay, plan.rows.len(), opts.ss);
+                answer.bundle_tables.insert("anova".into(), parts.rows);
+                answer.bundle_tables.insert(
+                    "cells".into(),
+                    serde_json::to_value(&summaries).unwrap_or(Json::Null),
+                );
+                answer.notes = notes;
+                return Ok(answer);
             }
             let fname = &plan.factors[0].name;
             let fit = oneway(
@@ -237,6 +274,46 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
                     es(e.eta2.unwrap_or(0.0))
                 ),
             });
+            if welch_opt.is_some() {
+                let names: Vec<String> = cells.groups.iter().map(|g| g.0.clone()).collect();
+                let groups: Vec<Vec<f64>> = cells.groups.iter().map(|g| g.1.clone()).collect();
+                let w = crate::models::welch::welch(fname, &names, &groups)
+                    .map_err(|e| e.at_if_none(a.verb_span))?;
+                answer.tables.insert(
+                    1,
+                    DisplayTable {
+                        caption: "Welch's ANOVA (does not assume equal spread; Welch 1951)".into(),
+                        columns: vec![
+                            ("Source".into(), Align::Left),
+                            ("F".into(), Align::Right),
+                            ("df".into(), Align::Right),
+                            ("error df".into(), Align::Right),
+                            ("p".into(), Align::Right),
+                        ],
+                        rows: vec![vec![
+                            w.effect.clone(),
+                            num(w.f),
+                            df(w.df),
+                            df(w.df_error),
+                            w.p.map(p_table).unwrap_or_default(),
+                        ]],
+                    },
+                );
+                if let Some(p) = w.p {
+                    answer.report = Some(format!(
+                        "{}; Welch: F({}, {}) = {}, {}",
+                        answer.report.take().unwrap_or_default(),
+                        df(w.df),
+                        crate::render::fmt::df_corrected(w.df_error),
+                        stat(w.f),
+                        p_report(p)
+                    ));
+                }
+                answer.bundle_tables.insert(
+                    "welch".into(),
+                    serde_json::to_value(vec![&w]).unwrap_or(Json::Null),
+                );
+            }
             answer.caution = Some(CAUTION.into());
             answer.bundle_tables.insert(
                 "anova".into(),

@@ -89,7 +89,7 @@ pub const VERBS: &[VerbHelp] = &[
     VerbHelp {
         verb: "anova",
         usage: "anova Y across F… [in NAME] [subject S] [where CONDITION]",
-        summary: "Without `subject`: one-way between-subjects ANOVA of Y across F (df, SS, MS, F, p, η², ω², a confidence interval for η² and f). With `subject S`: repeated-measures or mixed ANOVA; each factor is classified from the data as within or between subjects, each effect is tested against its own error term, within effects get Mauchly's test and the Greenhouse–Geisser, Huynh–Feldt and lower-bound corrections, and the table gives partial and generalized η². Subjects missing a cell are set aside by name.",
+        summary: "Without `subject`: one-way between-subjects ANOVA of Y across F (df, SS, MS, F, p, η², ω², a confidence interval for η² and f; `with welch` adds Welch's test for unequal spread), or with several factors the full factorial ANOVA (every interaction, partial η² and ω², an interaction figure), balanced or not. With `subject S`: repeated-measures or mixed ANOVA; each factor is classified from the data as within or between subjects, each effect is tested against its own error term, within effects get Mauchly's test and the Greenhouse–Geisser, Huynh–Feldt and lower-bound corrections, and the table gives partial and generalized η². Subjects missing a cell are set aside by name.",
         options: &[
             (
                 "level L",
@@ -101,7 +101,11 @@ pub const VERBS: &[VerbHelp] = &[
             ),
             (
                 "ss 2|3",
-                "with `subject` and between factors: type 2 (default) or type 3 sums of squares",
+                "several between factors: type 2 (default, each effect adjusted for the effects not containing it) or type 3 (sum-to-zero coding) sums of squares",
+            ),
+            (
+                "welch",
+                "one factor: add Welch's ANOVA, which does not assume equal spread",
             ),
             (
                 "duplicates error",
@@ -111,9 +115,16 @@ pub const VERBS: &[VerbHelp] = &[
         example: "anova length across dose, day subject fish",
     },
     VerbHelp {
+        verb: "check",
+        usage: "check Y across F… [in NAME] [subject S] [where CONDITION]",
+        summary: "Assumption checks for the ANOVA of Y across F…: equal spread across the cells (Brown–Forsythe, median-centred, and Levene, mean-centred), normal residuals (Shapiro–Wilk, Royston's approximation, valid for 3 to 5,000 values) with a residual Q–Q figure and a residual-against-fitted figure, and with `subject` Mauchly's sphericity test. Notes say what to consider; no test can show that an assumption holds.",
+        options: &[],
+        example: "check weight across feed, light in trial",
+    },
+    VerbHelp {
         verb: "plot",
         usage: "plot KIND Y across F… [in NAME] [subject S] [where CONDITION]",
-        summary: "A figure of Y across F. KIND: means (means with 95% CIs beside every observation), box (box plots with every observation), points (every observation), profile (needs `subject`: each subject's line faint across the first within factor, cell means with CIs bold, one colour per between group).",
+        summary: "A figure of Y across F. KIND: means (means with 95% CIs beside every observation), box (box plots with every observation), points (every observation), profile (needs `subject`: each subject's line faint across the first within factor, cell means with CIs bold, one colour per between group), qq (residuals against normal quantiles), residuals (residuals against fitted values).",
         options: &[(
             "level L",
             "confidence level of the intervals in `means` (default 0.95)",

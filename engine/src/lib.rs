@@ -19,10 +19,12 @@
 #![deny(missing_docs)]
 
 mod analysis;
+mod checks;
 pub mod data;
 pub mod design;
 pub mod dist;
 pub mod error;
+mod factorial;
 pub mod help;
 pub mod lang;
 pub mod models;

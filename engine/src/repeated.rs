@@ -437,6 +437,8 @@ pub(crate) fn run(
     let design_tbl = design_table(&sd);
     let cells_tbl = cells_table(&sd, &cells, &y_label, level);
     match a.verb {
+        // `check` is answered by checks::run before this point.
+        Verb::Check => return Err(CellError::input("`check` takes no figure kind")),
         Verb::Describe => {
             answer.title = format!(
                 "{y_label} across {factor_text}: {} cells, {} subjects",

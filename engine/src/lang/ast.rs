@@ -115,6 +115,8 @@ pub enum Verb {
     Describe,
     /// Analysis of variance.
     Anova,
+    /// Assumption checks.
+    Check,
     /// A figure of the given kind.
     Plot(PlotKind),
 }
@@ -125,6 +127,7 @@ impl Verb {
         match self {
             Verb::Describe => "describe",
             Verb::Anova => "anova",
+            Verb::Check => "check",
             Verb::Plot(_) => "plot",
         }
     }
@@ -141,15 +144,21 @@ pub enum PlotKind {
     Points,
     /// Each subject's line across a within factor, cell means with CIs (needs `subject`).
     Profile,
+    /// Residuals against normal quantiles.
+    Qq,
+    /// Residuals against fitted values.
+    Residuals,
 }
 
 impl PlotKind {
     /// Every kind with its word.
-    pub const ALL: [(&'static str, PlotKind); 4] = [
+    pub const ALL: [(&'static str, PlotKind); 6] = [
         ("means", PlotKind::Means),
         ("box", PlotKind::Box),
         ("points", PlotKind::Points),
         ("profile", PlotKind::Profile),
+        ("qq", PlotKind::Qq),
+        ("residuals", PlotKind::Residuals),
     ];
     /// The word.
     pub fn word(self) -> &'static str {
@@ -158,6 +167,8 @@ impl PlotKind {
             PlotKind::Box => "box",
             PlotKind::Points => "points",
             PlotKind::Profile => "profile",
+            PlotKind::Qq => "qq",
+            PlotKind::Residuals => "residuals",
         }
     }
 }

@@ -5,8 +5,9 @@ use super::lexer::{Tok, Token, lex};
 use crate::error::{CellError, Span, nearest};
 
 /// The verbs a cell may start a statement with (without the test-only `pause`).
-pub const VERBS: [&str; 10] = [
-    "read", "unpivot", "show", "levels", "label", "describe", "anova", "plot", "power", "help",
+pub const VERBS: [&str; 11] = [
+    "read", "unpivot", "show", "levels", "label", "describe", "anova", "check", "plot", "power",
+    "help",
 ];
 
 /// Clause keywords after `across`.
@@ -214,8 +215,10 @@ impl<'a> Parser<'a> {
             }
             "describe" => StmtKind::Analysis(self.analysis(Verb::Describe, verb_span)?),
             "anova" => StmtKind::Analysis(self.analysis(Verb::Anova, verb_span)?),
+            "check" => StmtKind::Analysis(self.analysis(Verb::Check, verb_span)?),
             "plot" => {
-                let kind_tok = self.name("a figure kind (means, box, points or profile)")?;
+                let kind_tok =
+                    self.name("a figure kind (means, box, points, profile, qq or residuals)")?;
                 let kind = PlotKind::ALL
                     .iter()
                     .find(|(w, _)| *w == kind_tok.value)
@@ -225,7 +228,7 @@ impl<'a> Parser<'a> {
                             kind_tok.span,
                             format!("`{}` is not a figure kind", kind_tok.value),
                         )
-                        .note("figure kinds: means, box, points, profile")
+                        .note("figure kinds: means, box, points, profile, qq, residuals")
                         .suggest(nearest(
                             &kind_tok.value,
                             PlotKind::ALL.iter().map(|(w, _)| *w),

@@ -215,7 +215,7 @@ pub fn draw(fig: &Figure) -> Option<String> {
                         )))
                         .ok()?;
                 }
-                PlotKind::Points | PlotKind::Profile => {}
+                _ => {}
             }
         }
         // Level names under their groups (drawn directly: the x axis is positional).
@@ -225,6 +225,96 @@ pub fn draw(fig: &Figure) -> Option<String> {
             let (px, py) = chart.backend_coord(&(i as f64, lo));
             root.draw(&Text::new(n.clone(), (px, py + 6), style.clone()))
                 .ok()?;
+        }
+        root.present().ok()?;
+    }
+    Some(buf)
+}
+
+/// One scatter panel: points, an optional reference line, labels.
+#[derive(Debug, Clone)]
+pub struct XyPanel {
+    /// Panel title.
+    pub title: String,
+    /// (x, y) points.
+    pub points: Vec<(f64, f64)>,
+    /// A reference line from one point to another.
+    pub line: Option<((f64, f64), (f64, f64))>,
+    /// x-axis label.
+    pub x_label: String,
+    /// y-axis label.
+    pub y_label: String,
+}
+
+fn bounds(v: impl Iterator<Item = f64>) -> Option<(f64, f64)> {
+    let (lo, hi) = v.fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), x| {
+        (a.min(x), b.max(x))
+    });
+    if !lo.is_finite() || !hi.is_finite() {
+        return None;
+    }
+    let pad = if hi > lo {
+        (hi - lo) * 0.06
+    } else {
+        lo.abs().max(1.0) * 0.1
+    };
+    Some((lo - pad, hi + pad))
+}
+
+fn xy_panel<DB: DrawingBackend>(
+    area: &DrawingArea<DB, plotters::coord::Shift>,
+    p: &XyPanel,
+) -> Option<()> {
+    let (x0, x1) = bounds(p.points.iter().map(|q| q.0))?;
+    let (y0, y1) = bounds(p.points.iter().map(|q| q.1))?;
+    let mut chart = ChartBuilder::on(area)
+        .margin(14)
+        .caption(p.title.as_str(), ("sans-serif", 14))
+        .x_label_area_size(40)
+        .y_label_area_size(58)
+        .build_cartesian_2d(x0..x1, y0..y1)
+        .ok()?;
+    chart
+        .configure_mesh()
+        .light_line_style(TRANSPARENT)
+        .bold_line_style(RGBColor(0xe4, 0xe4, 0xe4))
+        .x_desc(p.x_label.as_str())
+        .y_desc(p.y_label.as_str())
+        .label_style(("sans-serif", 12))
+        .axis_desc_style(("sans-serif", 13))
+        .draw()
+        .ok()?;
+    if let Some((a, b)) = p.line {
+        chart
+            .draw_series(std::iter::once(PathElement::new(
+                vec![a, b],
+                RGBColor(0x6b, 0x6b, 0x6b).stroke_width(1),
+            )))
+            .ok()?;
+    }
+    chart
+        .draw_series(
+            p.points
+                .iter()
+                .map(|&q| Circle::new(q, 3, PALETTE[0].mix(0.6).filled())),
+        )
+        .ok()?;
+    Some(())
+}
+
+/// One or two scatter panels side by side (Q–Q and residual figures).
+pub fn draw_panels(panels: &[XyPanel]) -> Option<String> {
+    if panels.is_empty() {
+        return None;
+    }
+    let mut buf = String::new();
+    {
+        let w = 440 * panels.len() as u32;
+        let root = SVGBackend::with_string(&mut buf, (w, 380)).into_drawing_area();
+        root.fill(&WHITE).ok()?;
+        let areas = root.split_evenly((1, panels.len()));
+        for (area, p) in areas.iter().zip(panels) {
+            xy_panel(area, p)?;
         }
         root.present().ok()?;
     }
