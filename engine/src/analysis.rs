@@ -63,9 +63,11 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
     if plan.subject.is_some() {
         return crate::repeated::run(a, ds, plan, notes, level);
     }
+    if a.verb == Verb::Anova && plan.factors.len() > 1 {
+        return factorial_answer(a, ds, &plan, notes, level);
+    }
     let cells = cells_of(&plan, level);
-    let factorial = a.verb == Verb::Anova && plan.factors.len() > 1;
-    for (name, _) in cells.empty.iter().filter(|_| !factorial) {
+    for (name, _) in &cells.empty {
         notes.push(format!(
             "level {name} has no observations in the rows used and is left out"
         ));
@@ -81,7 +83,7 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
         Verb::Plot(k) => k,
         _ => PlotKind::Means,
     };
-    let figure = Figure {
+    let svg = draw(&Figure {
         kind: fig_kind,
         groups: cells
             .groups
@@ -97,10 +99,14 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
         x_label: factor_label.clone(),
         y_label: y_label.clone(),
         level,
-    };
-    let svg = draw(&figure);
+    });
     if svg.is_none() {
         notes.push("the figure could not be drawn for these values".into());
+    }
+    if cells.groups.iter().any(|g| g.1.len() > MAX_DRAWN) {
+        notes.push(format!(
+            "groups with more than {MAX_DRAWN} observations are drawn as an evenly spaced sample of their points; means, intervals and boxes use all"
+        ));
     }
     let provenance = provenance_of(ds, &plan);
     let factor_names: Vec<&str> = plan.factors.iter().map(|f| f.name.as_str()).collect();
@@ -149,7 +155,7 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
             );
         }
         Verb::Anova => {
-            let opts = crate::repeated::options(&a.options)?;
+            crate::repeated::options(&a.options)?; // validates `ss` (one factor: both types agree)
             let welch_opt = a.options.iter().find(|o| o.name.value == "welch");
             if let Some(o) = welch_opt {
                 if !o.values.is_empty() {
@@ -157,34 +163,6 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
                         CellError::input("`welch` takes no value: write `with welch`").at(o.span),
                     );
                 }
-            }
-            if plan.factors.len() > 1 {
-                if let Some(o) = welch_opt {
-                    return Err(CellError::input(
-                        "Welch's test is for one factor; with several, consider `check` and a randomisation test",
-                    )
-                    .at(o.span));
-                }
-                let lay = crate::factorial::layout(&plan, a)?;
-                let summaries = crate::factorial::summaries(&lay, plan.y.offset, level);
-                let parts = crate::factorial::run(&lay, &summaries, &y_label, opts.ss)
-                    .map_err(|e| e.at_if_none(a.verb_span))?;
-                notes.extend(lay.notes.iter().cloned());
-                notes.extend(parts.notes);
-                answer.title = parts.title;
-                answer.tables.push(parts.table);
-                answer.tables.push(cells_table);
-                answer.report = Some(parts.report);
-                answer.figure = parts.figure;
-                answer.caution = Some(CAUTION.into());
-                answer.design = crate::factorial::design_json(&lay, plan.rows.len(), opts.ss);
-                answer.bundle_tables.insert("anova".into(), parts.rows);
-                answer.bundle_tables.insert(
-                    "cells".into(),
-                    serde_json::to_value(&summaries).unwrap_or(Json::Null),
-                );
-                answer.notes = notes;
-                return Ok(answer);
             }
             let fname = &plan.factors[0].name;
             let fit = oneway(
@@ -325,6 +303,50 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
     Ok(answer)
 }
 
+/// `anova` with several between factors.
+fn factorial_answer(
+    a: &Analysis,
+    ds: &Dataset,
+    plan: &Plan<'_>,
+    mut notes: Vec<String>,
+    level: f64,
+) -> Result<Answer, CellError> {
+    let opts = crate::repeated::options(&a.options)?;
+    if let Some(o) = a.options.iter().find(|o| o.name.value == "welch") {
+        return Err(CellError::input(
+            "Welch's test is for one factor; with several, consider `check` and a randomisation test",
+        )
+        .at(o.span));
+    }
+    let y_label = plan.response.display_name().to_string();
+    let lay = crate::factorial::layout(plan, a)?;
+    let summaries = crate::factorial::summaries(&lay, plan.y.offset, level);
+    let parts = crate::factorial::run(&lay, &summaries, &y_label, opts.ss)
+        .map_err(|e| e.at_if_none(a.verb_span))?;
+    notes.extend(lay.notes.iter().cloned());
+    notes.extend(parts.notes);
+    let mut answer = Answer {
+        command: "anova".into(),
+        title: parts.title,
+        figure: parts.figure,
+        report: Some(parts.report),
+        caution: Some(CAUTION.into()),
+        provenance: Some(provenance_of(ds, plan)),
+        design: crate::factorial::design_json(&lay, plan.rows.len(), opts.ss),
+        with_bundle: true,
+        notes,
+        ..Default::default()
+    };
+    answer.tables.push(parts.table);
+    answer.tables.push(cells_display(plan, &summaries, level));
+    answer.bundle_tables.insert("anova".into(), parts.rows);
+    answer.bundle_tables.insert(
+        "cells".into(),
+        serde_json::to_value(&summaries).unwrap_or(Json::Null),
+    );
+    Ok(answer)
+}
+
 struct Cells {
     /// (label, shifted values) per non-empty cell, in level order.
     groups: Vec<(String, Vec<f64>)>,
@@ -375,6 +397,8 @@ fn cells_of(plan: &Plan<'_>, level: f64) -> Cells {
     }
     out
 }
+
+use crate::render::svg::MAX_DRAWN;
 
 /// A confidence level as a percentage ("95").
 pub(crate) fn pct(level: f64) -> String {

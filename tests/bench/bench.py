@@ -13,6 +13,10 @@ bound on the engine time. statsmodels' AnovaRM builds a dense design matrix, far
 that size, so the ratio is taken at 300 subjects x 8 levels (one within factor, as AnovaRM
 cannot take a between factor), both run from this process.
 
+Factorial (issue 4): two factors (4 x 3), 1,000,000 unbalanced rows, type 3: target <= 100 ms
+after load; the round trip of the `anova` cell is printed beside statsmodels OLS + anova_lm
+(typ 3, Sum contrasts) on the same data, in the same run.
+
 This is a benchmark, not a test: it prints figures and ratios and fails only if something breaks.
 """
 import argparse
@@ -190,6 +194,34 @@ def rm_bench(smoke):
     print(f"  partita  5000 x 8, 3 groups {p_big * 1e3:6.2f} ms   (target <= 50 ms engine time)")
 
 
+def factorial_bench(smoke):
+    import numpy as np
+    import pandas as pd
+    import statsmodels.api as sm
+    from statsmodels.formula.api import ols
+
+    n = 50_000 if smoke else 1_000_000
+    reps = 3 if smoke else 7
+    rng = np.random.default_rng(4)
+    # Unbalanced: cell probabilities differ.
+    p = rng.dirichlet(np.ones(12) * 3)
+    cell = rng.choice(12, size=n, p=p)
+    a, b = cell // 3, cell % 3
+    y = 10 + 0.3 * a + 0.5 * b + 0.1 * a * b + rng.normal(0, 1, size=n)
+    df = pd.DataFrame({"a": np.array(["a1", "a2", "a3", "a4"])[a], "b": np.array(["b1", "b2", "b3"])[b], "y": np.round(y, 4)})
+    path = pathlib.Path(tempfile.mkdtemp(prefix="partita-bench-fac-")) / "fac.csv"
+    df.to_csv(path, index=False)
+    p_time = timed_cells("partita", f'read "{path}" as f', "anova y across a, b in f with ss 3", reps)
+    t0 = time.perf_counter()
+    fit = ols("y ~ C(a, Sum) * C(b, Sum)", data=df).fit()
+    sm.stats.anova_lm(fit, typ=3)
+    sm_time = time.perf_counter() - t0
+    print(f"factorial ANOVA 4 x 3, {n:,} unbalanced rows, type 3 (after load):")
+    print(f"  partita  {p_time * 1e3:8.2f} ms   (median of {reps}; target <= 100 ms at 1,000,000 rows)")
+    print(f"  statsmodels OLS + anova_lm {sm_time * 1e3:8.1f} ms (one run)")
+    print(f"  ratio statsmodels/partita {sm_time / p_time:6.1f}x")
+
+
 def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--bin", default=str(ROOT / "target" / "release" / "partita"))
@@ -213,6 +245,7 @@ def main():
     print(f"  python   {y_rt * 1e3:8.2f} ms")
     print(f"  ratio python/partita {y_rt / p_rt:6.1f}x")
     rm_bench(a.smoke)
+    factorial_bench(a.smoke)
 
 
 if __name__ == "__main__":

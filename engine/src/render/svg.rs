@@ -20,6 +20,9 @@ pub const PALETTE: [RGBColor; 6] = [
     RGBColor(0x8a, 0x6d, 0x1b),
 ];
 
+/// Most points drawn per group; larger groups are drawn as an evenly spaced sample.
+pub const MAX_DRAWN: usize = 1000;
+
 /// One group to draw.
 #[derive(Debug, Clone)]
 pub struct Group {
@@ -135,8 +138,9 @@ pub fn draw(fig: &Figure) -> Option<String> {
             } else {
                 0.0
             };
+            let step = g.values.len().div_ceil(MAX_DRAWN).max(1);
             chart
-                .draw_series(g.values.iter().enumerate().map(|(i, &v)| {
+                .draw_series(g.values.iter().enumerate().step_by(step).map(|(i, &v)| {
                     Circle::new(
                         (x0 + shift + spread * jitter(gi, i), v),
                         3,
