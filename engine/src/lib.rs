@@ -32,6 +32,7 @@ mod power;
 pub mod render;
 mod repeated;
 mod session;
+pub mod simultaneous;
 pub mod subjects;
 
 pub use error::{CellError, ErrorKind, Span};
