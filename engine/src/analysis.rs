@@ -19,9 +19,21 @@ pub const CAUTION: &str = "A small p says the data would be surprising if the gr
 
 /// Runs `describe`, `anova` or `plot` on `ds` (`named`: the dataset was named with `in`).
 pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, CellError> {
+    if let Some(b) = &a.by {
+        if a.verb != Verb::Compare {
+            return Err(CellError::input(format!(
+                "`by` belongs to `compare` (comparisons within each level of a factor); `{}` takes its factors after `across`",
+                a.verb.word()
+            ))
+            .at(b.span));
+        }
+    }
+    if a.verb == Verb::Compare {
+        return crate::compare::run(a, ds, named);
+    }
     let residual_figure = matches!(a.verb, Verb::Plot(PlotKind::Qq | PlotKind::Residuals));
     let allowed: &[&str] = match (a.verb, a.subject.is_some()) {
-        (Verb::Check, _) => &[],
+        (Verb::Check | Verb::Compare, _) => &[],
         _ if residual_figure => &[],
         (Verb::Anova, true) => &["level", "ss", "correction", "duplicates"],
         (_, true) => &["level", "duplicates"],
@@ -94,6 +106,7 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
                 values: vals.iter().map(|v| v + plan.y.offset).collect(),
                 mean: s.mean,
                 ci: s.ci_low.zip(s.ci_high),
+                label: None,
             })
             .collect(),
         x_label: factor_label.clone(),
@@ -129,8 +142,10 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
     );
     let cells_table = cells_display(&plan, &cells.summaries, level);
     match a.verb {
-        // `check` is answered by checks::run before this point.
-        Verb::Check => return Err(CellError::input("`check` takes no figure kind")),
+        // `check` and `compare` are answered before this point.
+        Verb::Check | Verb::Compare => {
+            return Err(CellError::input("this verb takes no figure kind"));
+        }
         Verb::Describe => {
             answer.title = format!(
                 "{y_label} across {factor_label}: {} cells, {} observations",
@@ -418,11 +433,23 @@ pub(crate) fn provenance_of(ds: &Dataset, plan: &Plan<'_>) -> Provenance {
 }
 
 fn cells_display(plan: &Plan<'_>, cells: &[CellSummary], level: f64) -> DisplayTable {
-    let mut columns: Vec<(String, Align)> = plan
+    let factors: Vec<(String, String)> = plan
         .factors
         .iter()
-        .map(|f| (f.display_name().to_string(), Align::Left))
+        .map(|f| (f.name.clone(), f.display_name().to_string()))
         .collect();
+    cells_display_of(plan.response.display_name(), &factors, cells, level)
+}
+
+/// The table of cells: factors given as (column name, label).
+pub(crate) fn cells_display_of(
+    y_label: &str,
+    factors: &[(String, String)],
+    cells: &[CellSummary],
+    level: f64,
+) -> DisplayTable {
+    let mut columns: Vec<(String, Align)> =
+        factors.iter().map(|f| (f.1.clone(), Align::Left)).collect();
     for h in ["n", "mean", "SD", "SE"] {
         columns.push((h.into(), Align::Right));
     }
@@ -431,10 +458,9 @@ fn cells_display(plan: &Plan<'_>, cells: &[CellSummary], level: f64) -> DisplayT
     let rows = cells
         .iter()
         .map(|c| {
-            let mut r: Vec<String> = plan
-                .factors
+            let mut r: Vec<String> = factors
                 .iter()
-                .map(|f| c.levels.get(&f.name).cloned().unwrap_or_default())
+                .map(|f| c.levels.get(&f.0).cloned().unwrap_or_default())
                 .collect();
             r.push(c.n.to_string());
             r.push(num(c.mean));
@@ -449,8 +475,7 @@ fn cells_display(plan: &Plan<'_>, cells: &[CellSummary], level: f64) -> DisplayT
         .collect();
     DisplayTable {
         caption: format!(
-            "{} by cell (mean ± t-based {}% confidence interval)",
-            plan.response.display_name(),
+            "{y_label} by cell (mean ± t-based {}% confidence interval)",
             pct(level)
         ),
         columns,

@@ -122,6 +122,23 @@ pub const VERBS: &[VerbHelp] = &[
         example: "check weight across feed, light in trial",
     },
     VerbHelp {
+        verb: "compare",
+        usage: "compare Y across F [in NAME] [subject S] [by B] [where CONDITION] [with method M, control \"L\", alpha A]",
+        summary: "Which levels of F differ, with multiplicity control: a table of pairs (difference, SE, statistic, df, p, adjusted p, simultaneous interval), the levels with their compact letters (levels sharing a letter do not differ), a figure of the differences around zero and the means with their letters. With `subject` and F within subjects, paired t tests; with `by B`, F is compared within each level of B on the pooled error of the F × B model (simple effects).",
+        options: &[
+            (
+                "method M",
+                "tukey (default between groups), games-howell (unequal spread), holm (default within subjects), bonferroni, fdr (Benjamini–Hochberg), dunnett (against a control)",
+            ),
+            ("control \"L\"", "the control level for dunnett"),
+            (
+                "alpha A",
+                "the familywise error rate (default 0.05); intervals are at 1 − A",
+            ),
+        ],
+        example: "compare weight across feed in trial with method tukey",
+    },
+    VerbHelp {
         verb: "plot",
         usage: "plot KIND Y across F… [in NAME] [subject S] [where CONDITION]",
         summary: "A figure of Y across F. KIND: means (means with 95% CIs beside every observation), box (box plots with every observation), points (every observation), profile (needs `subject`: each subject's line faint across the first within factor, cell means with CIs bold, one colour per between group), qq (residuals against normal quantiles), residuals (residuals against fitted values).",

@@ -20,6 +20,7 @@
 
 mod analysis;
 mod checks;
+mod compare;
 pub mod data;
 pub mod design;
 pub mod dist;

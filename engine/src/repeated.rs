@@ -437,8 +437,10 @@ pub(crate) fn run(
     let design_tbl = design_table(&sd);
     let cells_tbl = cells_table(&sd, &cells, &y_label, level);
     match a.verb {
-        // `check` is answered by checks::run before this point.
-        Verb::Check => return Err(CellError::input("`check` takes no figure kind")),
+        // `check` and `compare` are answered before this point.
+        Verb::Check | Verb::Compare => {
+            return Err(CellError::input("this verb takes no figure kind"));
+        }
         Verb::Describe => {
             answer.title = format!(
                 "{y_label} across {factor_text}: {} cells, {} subjects",
@@ -499,6 +501,7 @@ pub(crate) fn run(
                         values: vals.iter().map(|v| v + sd.offset).collect(),
                         mean: s.mean,
                         ci: s.ci_low.zip(s.ci_high),
+                        label: None,
                     })
                     .collect(),
                 x_label,

@@ -273,12 +273,19 @@ pub fn build(plan: &Plan<'_>, duplicates_error: bool) -> Result<SubjectDesign, C
             .note("leave out `with duplicates error` to average them, or fix the file"));
         }
         let values: u32 = dups.iter().map(|&(s, c)| counts[s * n_cells + c]).sum();
-        notes.push(format!(
+        if n_cells == 1 {
+            notes.push(format!(
+                "no factor named changes within subjects, so the {values} values of {} subjects were averaged into one per subject",
+                dups.len()
+            ));
+        } else {
+            notes.push(format!(
             "{} subject × cell combination{} held more than one value ({values} values in all, e.g. {}); each was averaged. `with duplicates error` refuses them instead",
             dups.len(),
             plural(dups.len()),
             examples[0]
         ));
+        }
     }
     let mut complete: Vec<usize> = Vec::new();
     let mut incomplete: Vec<String> = Vec::new();
@@ -391,7 +398,7 @@ pub fn build(plan: &Plan<'_>, duplicates_error: bool) -> Result<SubjectDesign, C
     let rows_used = complete.iter().map(|&s| rows_of[s]).sum();
     if within_uses.is_empty() {
         notes.push(
-            "no factor changes inside a subject: the analysis is between subjects, on one value per subject".into(),
+            "no factor named changes inside a subject: the analysis is between subjects, on one value per subject".into(),
         );
     }
     Ok(SubjectDesign {

@@ -117,6 +117,8 @@ pub enum Verb {
     Anova,
     /// Assumption checks.
     Check,
+    /// Multiple comparisons.
+    Compare,
     /// A figure of the given kind.
     Plot(PlotKind),
 }
@@ -128,6 +130,7 @@ impl Verb {
             Verb::Describe => "describe",
             Verb::Anova => "anova",
             Verb::Check => "check",
+            Verb::Compare => "compare",
             Verb::Plot(_) => "plot",
         }
     }
@@ -188,6 +191,8 @@ pub struct Analysis {
     pub dataset: Option<Name>,
     /// `subject COLUMN`.
     pub subject: Option<Name>,
+    /// `by FACTOR` (comparisons within each level of it).
+    pub by: Option<Name>,
     /// `where …`.
     pub filter: Option<Expr>,
     /// `with …`.

@@ -206,7 +206,10 @@ pub fn lex(src: &str) -> Result<(Vec<Token>, LexEnd), CellError> {
             c if c.is_alphabetic() || c == '_' => {
                 while i < bytes.len() {
                     let ch = src[i..].chars().next().unwrap_or(' ');
-                    if ch.is_alphanumeric() || ch == '_' {
+                    // A hyphen between letters belongs to the word (`games-howell`, `red-blue`).
+                    let hyphen_word =
+                        ch == '-' && src[i + 1..].chars().next().is_some_and(char::is_alphabetic);
+                    if ch.is_alphanumeric() || ch == '_' || hyphen_word {
                         i += ch.len_utf8();
                     } else {
                         break;
@@ -314,5 +317,17 @@ mod tests {
                 Tok::Word("feed".into())
             ]
         );
+    }
+}
+
+#[cfg(test)]
+mod hyphen_tests {
+    use super::*;
+
+    #[test]
+    fn a_hyphen_between_letters_stays_in_the_word() {
+        let (t, _) = lex("method games-howell, y > -2").unwrap();
+        assert_eq!(t[1].kind, Tok::Word("games-howell".into()));
+        assert!(matches!(t.last().unwrap().kind, Tok::Num(v, _) if v == -2.0));
     }
 }

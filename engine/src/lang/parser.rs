@@ -5,13 +5,13 @@ use super::lexer::{Tok, Token, lex};
 use crate::error::{CellError, Span, nearest};
 
 /// The verbs a cell may start a statement with (without the test-only `pause`).
-pub const VERBS: [&str; 11] = [
-    "read", "unpivot", "show", "levels", "label", "describe", "anova", "check", "plot", "power",
-    "help",
+pub const VERBS: [&str; 12] = [
+    "read", "unpivot", "show", "levels", "label", "describe", "anova", "check", "compare", "plot",
+    "power", "help",
 ];
 
 /// Clause keywords after `across`.
-pub const CLAUSES: [&str; 4] = ["in", "subject", "where", "with"];
+pub const CLAUSES: [&str; 5] = ["in", "subject", "by", "where", "with"];
 
 /// Whether the test-only `pause` verb is on (environment variable `PARTITA_TEST_PAUSE=1`).
 pub fn pause_enabled() -> bool {
@@ -216,6 +216,7 @@ impl<'a> Parser<'a> {
             "describe" => StmtKind::Analysis(self.analysis(Verb::Describe, verb_span)?),
             "anova" => StmtKind::Analysis(self.analysis(Verb::Anova, verb_span)?),
             "check" => StmtKind::Analysis(self.analysis(Verb::Check, verb_span)?),
+            "compare" => StmtKind::Analysis(self.analysis(Verb::Compare, verb_span)?),
             "plot" => {
                 let kind_tok =
                     self.name("a figure kind (means, box, points, profile, qq or residuals)")?;
@@ -363,12 +364,13 @@ impl<'a> Parser<'a> {
             factors,
             dataset: None,
             subject: None,
+            by: None,
             filter: None,
             options: Vec::new(),
         };
         while let Some(t) = self.peek() {
             let Tok::Word(w) = &t.kind else {
-                return Err(self.unexpected("`in`, `subject`, `where` or `with`"));
+                return Err(self.unexpected("`in`, `subject`, `by`, `where` or `with`"));
             };
             let twice = || CellError::syntax(t.span, format!("`{w}` is given twice"));
             match w.as_str() {
@@ -386,6 +388,14 @@ impl<'a> Parser<'a> {
                     }
                     a.subject = Some(self.name("the subject column")?);
                 }
+                "by" => {
+                    self.pos += 1;
+                    if a.by.is_some() {
+                        return Err(twice());
+                    }
+                    a.by =
+                        Some(self.name("the factor whose levels the comparisons are made within")?);
+                }
                 "where" => {
                     self.pos += 1;
                     if a.filter.is_some() {
@@ -402,7 +412,9 @@ impl<'a> Parser<'a> {
                 other => {
                     return Err(CellError::syntax(
                         t.span,
-                        format!("expected `in`, `subject`, `where` or `with`, found `{other}`"),
+                        format!(
+                            "expected `in`, `subject`, `by`, `where` or `with`, found `{other}`"
+                        ),
                     )
                     .suggest(nearest(other, CLAUSES))
                     .note("several factors are separated by commas: `across a, b`"));

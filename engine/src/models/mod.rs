@@ -2,6 +2,7 @@
 //! references; models take plain numbers and never look up names.
 
 pub mod assumptions;
+pub mod compare;
 pub mod describe;
 pub mod factorial;
 pub mod linear;

@@ -65,6 +65,19 @@ pub fn p_report(p: f64) -> String {
     }
 }
 
+/// An estimate in a sentence: three significant digits (`−0.81`, `1.23`, `412`).
+pub fn est(x: f64) -> String {
+    if !x.is_finite() {
+        return "—".into();
+    }
+    if x == 0.0 {
+        return "0".into();
+    }
+    let mag = x.abs().log10().floor() as i32;
+    let decimals = (2 - mag).clamp(0, 10) as usize;
+    trim_zeros(&format!("{x:.decimals$}")).replace('-', "−")
+}
+
 /// A test statistic in a sentence: two decimals.
 pub fn stat(x: f64) -> String {
     format!("{x:.2}").replace('-', "−")

@@ -25,6 +25,7 @@ pub fn render(a: &Answer) -> String {
             @if let Some(p) = &a.plain { @if a.tables.is_empty() && a.title.is_empty() { pre { (p) } } }
             @for t in &a.tables { (table(t)) }
             @if let Some(svg) = &a.figure { div class="partita-figure" { (PreEscaped(svg)) } }
+            @for svg in &a.extra_figures { div class="partita-figure" { (PreEscaped(svg)) } }
             @if let Some(r) = &a.report { p class="partita-report" { (r) } }
             @if !a.notes.is_empty() {
                 ul class="partita-notes" { @for n in &a.notes { li { (n) } } }

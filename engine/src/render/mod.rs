@@ -62,6 +62,8 @@ pub struct Answer {
     pub tables: Vec<DisplayTable>,
     /// An SVG figure.
     pub figure: Option<String>,
+    /// Further SVG figures, shown in the HTML beside the first.
+    pub extra_figures: Vec<String>,
     /// The report sentence.
     pub report: Option<String>,
     /// Notes.

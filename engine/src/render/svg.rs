@@ -34,6 +34,8 @@ pub struct Group {
     pub mean: f64,
     /// CI bounds, if defined.
     pub ci: Option<(f64, f64)>,
+    /// A label above the group (the compact letters after a comparison).
+    pub label: Option<String>,
 }
 
 /// A figure request.
@@ -220,6 +222,22 @@ pub fn draw(fig: &Figure) -> Option<String> {
                         .ok()?;
                 }
                 _ => {}
+            }
+        }
+        // Letters above each group's highest point or interval end.
+        let above = TextStyle::from(("sans-serif", 14).into_font())
+            .pos(Pos::new(HPos::Center, VPos::Bottom));
+        for (i, g) in fig.groups.iter().enumerate() {
+            if let Some(l) = &g.label {
+                let top = g
+                    .values
+                    .iter()
+                    .copied()
+                    .chain(g.ci.map(|c| c.1))
+                    .fold(g.mean, f64::max);
+                let (px, py) = chart.backend_coord(&(i as f64, top));
+                root.draw(&Text::new(l.clone(), (px, py - 6), above.clone()))
+                    .ok()?;
             }
         }
         // Level names under their groups (drawn directly: the x axis is positional).
@@ -522,12 +540,14 @@ mod tests {
                     values: vec![1.0, 2.0, 3.0],
                     mean: 2.0,
                     ci: Some((0.5, 3.5)),
+                    label: None,
                 },
                 Group {
                     name: "b".into(),
                     values: vec![2.0, 4.0],
                     mean: 3.0,
                     ci: None,
+                    label: None,
                 },
             ],
             x_label: "feed".into(),
@@ -560,6 +580,87 @@ mod tests {
         assert_eq!(jitter(1, 2), jitter(1, 2));
         assert!((0..1000).all(|i| (-0.5..0.5).contains(&jitter(0, i))));
     }
+}
+
+/// Intervals around zero: one row per comparison (label, estimate, low, high).
+pub fn draw_intervals(
+    rows: &[(String, f64, Option<f64>, Option<f64>)],
+    x_label: &str,
+) -> Option<String> {
+    if rows.is_empty() {
+        return None;
+    }
+    let (mut lo, mut hi) = (0.0f64, 0.0f64);
+    for (_, e, a, b) in rows {
+        lo = lo.min(a.unwrap_or(*e)).min(*e);
+        hi = hi.max(b.unwrap_or(*e)).max(*e);
+    }
+    if !lo.is_finite() || !hi.is_finite() {
+        return None;
+    }
+    let pad = ((hi - lo) * 0.08).max(1e-9);
+    let (lo, hi) = (lo - pad, hi + pad);
+    let n = rows.len();
+    let longest = rows.iter().map(|r| r.0.chars().count()).max().unwrap_or(4) as u32;
+    let mut buf = String::new();
+    {
+        let height = (90 + 26 * n as u32).clamp(180, 1400);
+        let root = SVGBackend::with_string(&mut buf, (620, height)).into_drawing_area();
+        root.fill(&WHITE).ok()?;
+        let mut chart = ChartBuilder::on(&root)
+            .margin(14)
+            .x_label_area_size(44)
+            .y_label_area_size((longest * 7 + 16).clamp(60, 260))
+            .build_cartesian_2d(lo..hi, -0.5f64..(n as f64 - 0.5))
+            .ok()?;
+        let names: Vec<String> = rows.iter().map(|r| r.0.clone()).collect();
+        let fmt_y = move |y: &f64| {
+            let i = y.round();
+            if (y - i).abs() < 1e-6 && i >= 0.0 && (i as usize) < names.len() {
+                names[n - 1 - i as usize].clone()
+            } else {
+                String::new()
+            }
+        };
+        chart
+            .configure_mesh()
+            .disable_y_mesh()
+            .light_line_style(TRANSPARENT)
+            .bold_line_style(RGBColor(0xe4, 0xe4, 0xe4))
+            .y_labels(n.max(2) * 2 + 1)
+            .y_label_formatter(&fmt_y)
+            .x_desc(x_label)
+            .label_style(("sans-serif", 12))
+            .axis_desc_style(("sans-serif", 13))
+            .draw()
+            .ok()?;
+        chart
+            .draw_series(std::iter::once(PathElement::new(
+                vec![(0.0, -0.5), (0.0, n as f64 - 0.5)],
+                RGBColor(0x6b, 0x6b, 0x6b).stroke_width(1),
+            )))
+            .ok()?;
+        for (i, (_, e, a, b)) in rows.iter().enumerate() {
+            let y = (n - 1 - i) as f64;
+            if let (Some(a), Some(b)) = (a, b) {
+                chart
+                    .draw_series(std::iter::once(PathElement::new(
+                        vec![(*a, y), (*b, y)],
+                        PALETTE[0].stroke_width(2),
+                    )))
+                    .ok()?;
+            }
+            chart
+                .draw_series(std::iter::once(Circle::new(
+                    (*e, y),
+                    4,
+                    PALETTE[0].filled(),
+                )))
+                .ok()?;
+        }
+        root.present().ok()?;
+    }
+    Some(buf)
 }
 
 /// A line figure: power (or any 0–1 quantity) against n for several curves, one point marked.
