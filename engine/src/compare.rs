@@ -470,9 +470,10 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
         )
     } else {
         format!(
-            "{} ({}): {}",
+            "{}: {} of {} comparisons differ — {}",
             method.prose(),
-            format_args!("{} of {} comparisons differ", differ.len(), rows.len()),
+            differ.len(),
+            rows.len(),
             differ
                 .iter()
                 .map(|r| format!(

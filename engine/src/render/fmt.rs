@@ -75,7 +75,7 @@ pub fn est(x: f64) -> String {
     }
     let mag = x.abs().log10().floor() as i32;
     let decimals = (2 - mag).clamp(0, 10) as usize;
-    trim_zeros(&format!("{x:.decimals$}")).replace('-', "−")
+    format!("{x:.decimals$}").replace('-', "−")
 }
 
 /// A test statistic in a sentence: two decimals.

@@ -97,11 +97,23 @@ pub fn draw(fig: &Figure) -> Option<String> {
     } else {
         lo.abs().max(1.0) * 0.1
     };
-    let (lo, hi) = (lo - pad, hi + pad);
+    let letters = if fig.groups.iter().any(|g| g.label.is_some()) {
+        2.0
+    } else {
+        1.0
+    };
+    let (lo, hi) = (lo - pad, hi + pad * letters);
     // plotters escapes text itself when it writes SVG.
     let names: Vec<String> = fig.groups.iter().map(|g| g.name.clone()).collect();
     let mut buf = String::new();
-    let width = (160 + 90 * k as u32).clamp(360, 900);
+    let longest = fig
+        .groups
+        .iter()
+        .map(|g| g.name.chars().count())
+        .max()
+        .unwrap_or(4) as u32;
+    let per_group = (longest * 8 + 16).clamp(90, 150);
+    let width = (160 + per_group * k as u32).clamp(360, 1800);
     {
         let root = SVGBackend::with_string(&mut buf, (width, 360)).into_drawing_area();
         root.fill(&WHITE).ok()?;
@@ -235,7 +247,13 @@ pub fn draw(fig: &Figure) -> Option<String> {
                     .copied()
                     .chain(g.ci.map(|c| c.1))
                     .fold(g.mean, f64::max);
-                let (px, py) = chart.backend_coord(&(i as f64, top));
+                let x = i as f64
+                    + if fig.kind == PlotKind::Means {
+                        0.2
+                    } else {
+                        0.0
+                    };
+                let (px, py) = chart.backend_coord(&(x, top));
                 root.draw(&Text::new(l.clone(), (px, py - 6), above.clone()))
                     .ok()?;
             }
