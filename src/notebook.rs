@@ -16,6 +16,37 @@ pub struct Report {
     pub failed: Option<(usize, String)>,
 }
 
+/// Collects a cell's outputs as a notebook would show them: an update replaces the output with
+/// its display id; progress (the `partita-progress` text) is also drawn as a bar on stderr.
+#[derive(Default)]
+struct Progressive {
+    outputs: Vec<Output>,
+    progress_shown: bool,
+}
+
+impl engine::DisplaySink for Progressive {
+    fn display(&mut self, o: Output) {
+        if let Some(p) = o.data.get("text/plain").and_then(|v| v.as_str()) {
+            if o.display_id.is_some() && p.starts_with("permute: ") {
+                eprint!("\r{}", p.lines().next().unwrap_or(""));
+                self.progress_shown = true;
+            }
+        }
+        if o.update {
+            if let Some(slot) = self
+                .outputs
+                .iter_mut()
+                .find(|x| x.display_id.is_some() && x.display_id == o.display_id)
+            {
+                slot.data = o.data;
+                slot.metadata = o.metadata;
+                return;
+            }
+        }
+        self.outputs.push(o);
+    }
+}
+
 fn source_of(cell: &Value) -> String {
     match &cell["source"] {
         Value::String(s) => s.clone(),
@@ -63,9 +94,13 @@ pub fn run(path: &Path, keep_going: bool) -> Result<Report> {
         }
         let src = source_of(cell);
         count += 1;
-        let mut outs: Vec<Output> = Vec::new();
+        let mut outs = Progressive::default();
         let result = session.run_cell(&src, &cancel, &mut outs);
+        if outs.progress_shown {
+            eprintln!();
+        }
         let mut outputs: Vec<Value> = outs
+            .outputs
             .into_iter()
             .map(|o| {
                 if o.is_result {

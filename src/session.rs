@@ -28,6 +28,8 @@ impl DisplaySink for Forward<'_> {
             data: o.data,
             metadata: o.metadata,
             is_result: o.is_result,
+            display_id: o.display_id,
+            update: o.update,
         });
     }
 }

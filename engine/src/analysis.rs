@@ -33,7 +33,7 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
     }
     let residual_figure = matches!(a.verb, Verb::Plot(PlotKind::Qq | PlotKind::Residuals));
     let allowed: &[&str] = match (a.verb, a.subject.is_some()) {
-        (Verb::Check | Verb::Compare, _) => &[],
+        (Verb::Check | Verb::Compare | Verb::Permute, _) => &[],
         _ if residual_figure => &[],
         (Verb::Anova, true) => &["level", "ss", "correction", "duplicates"],
         (_, true) => &["level", "duplicates"],
@@ -143,7 +143,7 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
     let cells_table = cells_display(&plan, &cells.summaries, level);
     match a.verb {
         // `check` and `compare` are answered before this point.
-        Verb::Check | Verb::Compare => {
+        Verb::Check | Verb::Compare | Verb::Permute => {
             return Err(CellError::input("this verb takes no figure kind"));
         }
         Verb::Describe => {

@@ -29,6 +29,7 @@ mod factorial;
 pub mod help;
 pub mod lang;
 pub mod models;
+mod permute;
 mod power;
 pub mod render;
 mod repeated;
@@ -74,6 +75,23 @@ pub struct Output {
     pub metadata: serde_json::Map<String, serde_json::Value>,
     /// True for the cell's last statement: the front end shows it as the cell's result.
     pub is_result: bool,
+    /// A display id: later outputs with `update` set replace this one in place (progress).
+    pub display_id: Option<String>,
+    /// Replaces the display with the same `display_id` instead of adding an output.
+    pub update: bool,
+}
+
+impl Output {
+    /// A plain answer (no display id).
+    pub fn answer(data: serde_json::Map<String, serde_json::Value>, is_result: bool) -> Output {
+        Output {
+            data,
+            metadata: Default::default(),
+            is_result,
+            display_id: None,
+            update: false,
+        }
+    }
 }
 
 /// Receives outputs as statements finish.

@@ -438,7 +438,7 @@ pub(crate) fn run(
     let cells_tbl = cells_table(&sd, &cells, &y_label, level);
     match a.verb {
         // `check` and `compare` are answered before this point.
-        Verb::Check | Verb::Compare => {
+        Verb::Check | Verb::Compare | Verb::Permute => {
             return Err(CellError::input("this verb takes no figure kind"));
         }
         Verb::Describe => {

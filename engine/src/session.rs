@@ -74,14 +74,10 @@ impl Session {
                 return Err(CellError::interrupted());
             }
             let answer = self
-                .run_statement(&st.kind, st.span, cancel)
+                .run_statement(&st.kind, st.span, cancel, &mut *sink)
                 .map_err(|e| e.at_if_none(st.span))?;
             if let Some(a) = answer {
-                sink.display(Output {
-                    data: a.mime_bundle(),
-                    metadata: Default::default(),
-                    is_result: i == last,
-                });
+                sink.display(Output::answer(a.mime_bundle(), i == last));
             }
         }
         Ok(())
@@ -92,6 +88,7 @@ impl Session {
         st: &StmtKind,
         span: Span,
         cancel: &Cancel,
+        sink: &mut dyn DisplaySink,
     ) -> Result<Option<Answer>, CellError> {
         match st {
             StmtKind::Read {
@@ -146,6 +143,16 @@ impl Session {
                     "{}.{col} is labelled \"{}\"",
                     ds.name, text.value
                 ))))
+            }
+            StmtKind::Analysis(a)
+                if matches!(
+                    a.verb,
+                    crate::lang::ast::Verb::Permute
+                        | crate::lang::ast::Verb::Plot(crate::lang::ast::PlotKind::Null)
+                ) =>
+            {
+                let (ds, named) = self.dataset(a.dataset.as_ref())?;
+                crate::permute::run(a, ds, named, cancel, sink).map(Some)
             }
             StmtKind::Analysis(a) => self.analysis(a).map(Some),
             StmtKind::Power {

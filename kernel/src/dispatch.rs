@@ -214,7 +214,16 @@ impl<T: Transport> Dispatcher<T> {
             if silent {
                 return;
             }
-            let (t, c) = if d.is_result {
+            let transient = match &d.display_id {
+                Some(id) => json!({"display_id": id}),
+                None => json!({}),
+            };
+            let (t, c) = if d.update && d.display_id.is_some() {
+                (
+                    "update_display_data",
+                    json!({"data": d.data, "metadata": d.metadata, "transient": transient}),
+                )
+            } else if d.is_result {
                 (
                     "execute_result",
                     json!({"execution_count": count, "data": d.data, "metadata": d.metadata}),
@@ -222,7 +231,7 @@ impl<T: Transport> Dispatcher<T> {
             } else {
                 (
                     "display_data",
-                    json!({"data": d.data, "metadata": d.metadata, "transient": {}}),
+                    json!({"data": d.data, "metadata": d.metadata, "transient": transient}),
                 )
             };
             transport.send(Channel::IoPub, replier.broadcast(Some(m), t, c));
@@ -305,6 +314,23 @@ mod tests {
                     traceback: vec!["bad".into()],
                 }),
                 "panic" => panic!("boom"),
+                "progress" => {
+                    let text = |t: &str| {
+                        let mut d = Map::new();
+                        d.insert("text/plain".into(), Value::String(t.into()));
+                        d
+                    };
+                    for (t, update) in [("0%", false), ("50%", true)] {
+                        out(DisplayOut {
+                            data: text(t),
+                            metadata: Map::new(),
+                            is_result: false,
+                            display_id: Some("p1".into()),
+                            update,
+                        });
+                    }
+                    Ok(())
+                }
                 _ => {
                     let mut data = Map::new();
                     data.insert("text/plain".into(), Value::String(code.into()));
@@ -312,6 +338,8 @@ mod tests {
                         data,
                         metadata: Map::new(),
                         is_result: true,
+                        display_id: None,
+                        update: false,
                     });
                     Ok(())
                 }
@@ -443,6 +471,26 @@ mod tests {
         let v = run("execute_request", json!({"code": "x", "silent": true}));
         assert_eq!(types(&v), ["status", "execute_reply", "status"]);
         assert_eq!(v[1].1.content["execution_count"], 0);
+    }
+
+    #[test]
+    fn display_ids_travel_in_transient_and_updates_replace() {
+        let v = run("execute_request", json!({"code": "progress"}));
+        assert_eq!(
+            types(&v),
+            [
+                "status",
+                "execute_input",
+                "display_data",
+                "update_display_data",
+                "execute_reply",
+                "status"
+            ]
+        );
+        for m in [&v[2].1, &v[3].1] {
+            assert_eq!(m.content["transient"]["display_id"], "p1");
+        }
+        assert_eq!(v[3].1.content["data"]["text/plain"], "50%");
     }
 
     #[test]

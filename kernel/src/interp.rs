@@ -13,6 +13,10 @@ pub struct DisplayOut {
     pub metadata: Map<String, Value>,
     /// The cell's result (sent as execute_result) rather than a display.
     pub is_result: bool,
+    /// Display id (sent in `transient`), so that later updates replace this display.
+    pub display_id: Option<String>,
+    /// Sent as update_display_data for `display_id`.
+    pub update: bool,
 }
 
 /// A failed cell.

@@ -119,6 +119,8 @@ pub enum Verb {
     Check,
     /// Multiple comparisons.
     Compare,
+    /// Randomisation tests.
+    Permute,
     /// A figure of the given kind.
     Plot(PlotKind),
 }
@@ -131,6 +133,7 @@ impl Verb {
             Verb::Anova => "anova",
             Verb::Check => "check",
             Verb::Compare => "compare",
+            Verb::Permute => "permute",
             Verb::Plot(_) => "plot",
         }
     }
@@ -151,17 +154,20 @@ pub enum PlotKind {
     Qq,
     /// Residuals against fitted values.
     Residuals,
+    /// The randomisation null distribution of F.
+    Null,
 }
 
 impl PlotKind {
     /// Every kind with its word.
-    pub const ALL: [(&'static str, PlotKind); 6] = [
+    pub const ALL: [(&'static str, PlotKind); 7] = [
         ("means", PlotKind::Means),
         ("box", PlotKind::Box),
         ("points", PlotKind::Points),
         ("profile", PlotKind::Profile),
         ("qq", PlotKind::Qq),
         ("residuals", PlotKind::Residuals),
+        ("null", PlotKind::Null),
     ];
     /// The word.
     pub fn word(self) -> &'static str {
@@ -172,6 +178,7 @@ impl PlotKind {
             PlotKind::Profile => "profile",
             PlotKind::Qq => "qq",
             PlotKind::Residuals => "residuals",
+            PlotKind::Null => "null",
         }
     }
 }

@@ -5,9 +5,9 @@ use super::lexer::{Tok, Token, lex};
 use crate::error::{CellError, Span, nearest};
 
 /// The verbs a cell may start a statement with (without the test-only `pause`).
-pub const VERBS: [&str; 12] = [
-    "read", "unpivot", "show", "levels", "label", "describe", "anova", "check", "compare", "plot",
-    "power", "help",
+pub const VERBS: [&str; 13] = [
+    "read", "unpivot", "show", "levels", "label", "describe", "anova", "check", "compare",
+    "permute", "plot", "power", "help",
 ];
 
 /// Clause keywords after `across`.
@@ -217,6 +217,7 @@ impl<'a> Parser<'a> {
             "anova" => StmtKind::Analysis(self.analysis(Verb::Anova, verb_span)?),
             "check" => StmtKind::Analysis(self.analysis(Verb::Check, verb_span)?),
             "compare" => StmtKind::Analysis(self.analysis(Verb::Compare, verb_span)?),
+            "permute" => StmtKind::Analysis(self.analysis(Verb::Permute, verb_span)?),
             "plot" => {
                 let kind_tok =
                     self.name("a figure kind (means, box, points, profile, qq or residuals)")?;
@@ -229,7 +230,7 @@ impl<'a> Parser<'a> {
                             kind_tok.span,
                             format!("`{}` is not a figure kind", kind_tok.value),
                         )
-                        .note("figure kinds: means, box, points, profile, qq, residuals")
+                        .note("figure kinds: means, box, points, profile, qq, residuals, null")
                         .suggest(nearest(
                             &kind_tok.value,
                             PlotKind::ALL.iter().map(|(w, _)| *w),

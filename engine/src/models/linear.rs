@@ -194,40 +194,37 @@ fn inverse_spd(a: &DMatrix<f64>) -> Option<DMatrix<f64>> {
     Some(chol.inverse())
 }
 
-/// The hypothesis SSCP (d × d) of `term` under `ty`; `None` if a cross-product is singular.
-pub fn hypothesis(stats: &CellStats, term: &[usize], ty: SsType) -> Option<DMatrix<f64>> {
-    let d = DVector::from_vec(stats.counts.clone());
-    let m = &stats.means;
+/// The G × G matrix Q of the hypothesis of `term`, so that its SSCP is H = M' Q M for any cell
+/// means M of a layout with these `counts` ((1) or (2) of the module doc); `None` if singular.
+pub fn hypothesis_form(
+    sizes: &[usize],
+    counts: &[f64],
+    term: &[usize],
+    ty: SsType,
+) -> Option<DMatrix<f64>> {
+    let d = DVector::from_vec(counts.to_vec());
+    let g = counts.len();
     match ty {
         SsType::Two => {
-            let all = terms(stats.sizes.len());
-            let reduced: Vec<&Vec<usize>> = all.iter().filter(|t| !contains(t, term)).collect();
-            let xt = coding(&stats.sizes, term);
+            let reduced: Vec<Vec<usize>> = terms(sizes.len())
+                .into_iter()
+                .filter(|t| !contains(t, term))
+                .collect();
+            let xt = coding(sizes, term);
             let r = if reduced.is_empty() {
                 xt
             } else {
-                let blocks: Vec<DMatrix<f64>> =
-                    reduced.iter().map(|t| coding(&stats.sizes, t)).collect();
-                let cols: usize = blocks.iter().map(|b| b.ncols()).sum();
-                let mut xr = DMatrix::zeros(stats.n_cells(), cols);
-                let mut at = 0;
-                for b in &blocks {
-                    xr.columns_mut(at, b.ncols()).copy_from(b);
-                    at += b.ncols();
-                }
+                let xr = stack(sizes, &reduced, g);
                 let dxr = weight_rows(&xr, &d);
-                let g = xr.transpose() * &dxr;
-                let coef = inverse_spd(&g)? * (dxr.transpose() * &xt);
+                let coef = inverse_spd(&(xr.transpose() * &dxr))? * (dxr.transpose() * &xt);
                 xt - xr * coef
             };
             let dr = weight_rows(&r, &d);
-            let b = dr.transpose() * m;
             let inner = inverse_spd(&(r.transpose() * &dr))?;
-            Some(b.transpose() * inner * b)
+            Some(&dr * inner * dr.transpose())
         }
         SsType::Three => {
-            let parts: Vec<DMatrix<f64>> = stats
-                .sizes
+            let parts: Vec<DMatrix<f64>> = sizes
                 .iter()
                 .enumerate()
                 .map(|(j, &k)| {
@@ -239,12 +236,43 @@ pub fn hypothesis(stats: &CellStats, term: &[usize], ty: SsType) -> Option<DMatr
                 })
                 .collect();
             let l = kron_all(&parts);
-            let lm = &l * m;
-            let dinv: Vec<f64> = stats.counts.iter().map(|n| 1.0 / n).collect();
+            let dinv: Vec<f64> = counts.iter().map(|n| 1.0 / n).collect();
             let ldl = weight_cols(&l, &DVector::from_vec(dinv)) * l.transpose();
-            Some(lm.transpose() * inverse_spd(&ldl)? * lm)
+            Some(l.transpose() * inverse_spd(&ldl)? * l)
         }
     }
+}
+
+fn stack(sizes: &[usize], ts: &[Vec<usize>], g: usize) -> DMatrix<f64> {
+    let blocks: Vec<DMatrix<f64>> = ts.iter().map(|t| coding(sizes, t)).collect();
+    let cols: usize = blocks.iter().map(|b| b.ncols()).sum();
+    let mut x = DMatrix::zeros(g, cols);
+    let mut at = 0;
+    for b in &blocks {
+        x.columns_mut(at, b.ncols()).copy_from(b);
+        at += b.ncols();
+    }
+    x
+}
+
+/// The G × G operator P giving the fitted cell values P·m of the model with every term except
+/// `term` (sum-to-zero coding; the reduced model of a Freedman–Lane permutation test).
+pub fn reduced_fit(sizes: &[usize], counts: &[f64], term: &[usize]) -> Option<DMatrix<f64>> {
+    let g = counts.len();
+    let others: Vec<Vec<usize>> = terms(sizes.len())
+        .into_iter()
+        .filter(|t| t.as_slice() != term)
+        .collect();
+    let x = stack(sizes, &others, g);
+    let d = DVector::from_vec(counts.to_vec());
+    let dx = weight_rows(&x, &d);
+    Some(&x * inverse_spd(&(x.transpose() * &dx))? * dx.transpose())
+}
+
+/// The hypothesis SSCP (d × d) of `term` under `ty`; `None` if a cross-product is singular.
+pub fn hypothesis(stats: &CellStats, term: &[usize], ty: SsType) -> Option<DMatrix<f64>> {
+    let q = hypothesis_form(&stats.sizes, &stats.counts, term, ty)?;
+    Some(stats.means.transpose() * q * &stats.means)
 }
 
 fn weight_rows(x: &DMatrix<f64>, w: &DVector<f64>) -> DMatrix<f64> {

@@ -7,6 +7,7 @@ pub mod describe;
 pub mod factorial;
 pub mod linear;
 pub mod oneway;
+pub mod permutation;
 pub mod power;
 pub mod repeated;
 pub mod sums;

@@ -681,6 +681,115 @@ pub fn draw_intervals(
     Some(buf)
 }
 
+/// The randomisation null of F: a density histogram (the last bin holding values beyond
+/// `upper` is left out of the bars), the observed F marked and its tail shaded, and the
+/// F(df1, df2) density overlaid.
+pub fn draw_null(
+    bins: &[u64],
+    upper: f64,
+    f_obs: f64,
+    df1: f64,
+    df2: f64,
+    title: &str,
+) -> Option<String> {
+    use statrs::distribution::{Continuous, FisherSnedecor};
+    let total: u64 = bins.iter().sum();
+    let k = bins.len().saturating_sub(1);
+    if total == 0 || k == 0 || !(upper > 0.0) {
+        return None;
+    }
+    let w = upper / k as f64;
+    let dens: Vec<f64> = bins[..k]
+        .iter()
+        .map(|&c| c as f64 / (total as f64 * w))
+        .collect();
+    let fdist = FisherSnedecor::new(df1, df2).ok();
+    let curve: Vec<(f64, f64)> = (1..=200)
+        .map(|i| {
+            let x = upper * i as f64 / 200.0;
+            (x, fdist.as_ref().map(|d| d.pdf(x)).unwrap_or(0.0))
+        })
+        .filter(|p| p.1.is_finite())
+        .collect();
+    let top = dens
+        .iter()
+        .copied()
+        .chain(curve.iter().map(|p| {
+            p.1.min(dens.iter().cloned().fold(0.0, f64::max) * 3.0 + 0.1)
+        }))
+        .fold(0.0, f64::max)
+        * 1.1;
+    let x_hi = upper.max(f_obs * 1.05);
+    let mut buf = String::new();
+    {
+        let root = SVGBackend::with_string(&mut buf, (600, 360)).into_drawing_area();
+        root.fill(&WHITE).ok()?;
+        let mut chart = ChartBuilder::on(&root)
+            .margin(14)
+            .caption(title, ("sans-serif", 14))
+            .x_label_area_size(40)
+            .y_label_area_size(56)
+            .build_cartesian_2d(0.0..x_hi, 0.0..top.max(1e-9))
+            .ok()?;
+        chart
+            .configure_mesh()
+            .light_line_style(TRANSPARENT)
+            .bold_line_style(RGBColor(0xe4, 0xe4, 0xe4))
+            .x_desc("F")
+            .y_desc("density")
+            .label_style(("sans-serif", 12))
+            .axis_desc_style(("sans-serif", 13))
+            .draw()
+            .ok()?;
+        for (i, d) in dens.iter().enumerate() {
+            let (a, b) = (i as f64 * w, (i + 1) as f64 * w);
+            let colour = if a >= f_obs {
+                PALETTE[1].mix(0.85)
+            } else {
+                PALETTE[0].mix(0.45)
+            };
+            chart
+                .draw_series(std::iter::once(Rectangle::new(
+                    [(a, 0.0), (b, *d)],
+                    colour.filled(),
+                )))
+                .ok()?;
+        }
+        chart
+            .draw_series(LineSeries::new(
+                curve.iter().copied().filter(|p| p.1 <= top),
+                BLACK.stroke_width(2),
+            ))
+            .ok()?
+            .label(format!(
+                "F({}, {}) density",
+                super::fmt::df(df1),
+                super::fmt::df(df2)
+            ))
+            .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 18, y)], BLACK.stroke_width(2)));
+        chart
+            .draw_series(std::iter::once(PathElement::new(
+                vec![(f_obs, 0.0), (f_obs, top)],
+                PALETTE[3].stroke_width(2),
+            )))
+            .ok()?
+            .label(format!("observed F = {}", super::fmt::stat(f_obs)))
+            .legend(|(x, y)| {
+                PathElement::new(vec![(x, y), (x + 18, y)], PALETTE[3].stroke_width(2))
+            });
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .background_style(WHITE.mix(0.9))
+            .border_style(RGBColor(0xbb, 0xbb, 0xbb))
+            .label_font(("sans-serif", 12))
+            .draw()
+            .ok()?;
+        root.present().ok()?;
+    }
+    Some(buf)
+}
+
 /// A line figure: power (or any 0–1 quantity) against n for several curves, one point marked.
 pub fn draw_curves(
     curves: &[(String, Vec<(f64, f64)>)],
