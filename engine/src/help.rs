@@ -139,9 +139,21 @@ pub const VERBS: &[VerbHelp] = &[
         example: "compare weight across feed in trial with method tukey",
     },
     VerbHelp {
+        verb: "permute",
+        usage: "permute Y across F… [in NAME] [subject S] [where CONDITION] [with draws N, seed K, threads T]",
+        summary: "A randomisation test of each ANOVA effect's F, for skewed residuals, small samples or unequal spread: one factor permutes the responses across groups; several factors permute the residuals of the model without the effect (Freedman–Lane); with `subject`, within-subject effects permute each subject's values across its cells and between effects permute whole subjects. Exact when all distinct assignments number at most N, else Monte Carlo with p = (b + 1)/(m + 1) and a 99% interval. Long runs show progress; an interrupted run shows its partial result.",
+        options: &[
+            ("draws N", "Monte Carlo draws (default 10,000; at most 10,000,000)"),
+            ("seed K", "the seed (a whole number); drawn and shown when not given, so a run can be repeated"),
+            ("threads T", "threads to use (default: all cores); the p does not depend on it"),
+            ("ss 2|3", "several factors: the type of the F statistic"),
+        ],
+        example: "permute weight across feed in trial with draws 20000, seed 7",
+    },
+    VerbHelp {
         verb: "plot",
         usage: "plot KIND Y across F… [in NAME] [subject S] [where CONDITION]",
-        summary: "A figure of Y across F. KIND: means (means with 95% CIs beside every observation), box (box plots with every observation), points (every observation), profile (needs `subject`: each subject's line faint across the first within factor, cell means with CIs bold, one colour per between group), qq (residuals against normal quantiles), residuals (residuals against fitted values).",
+        summary: "A figure of Y across F. KIND: means (means with 95% CIs beside every observation), box (box plots with every observation), points (every observation), profile (needs `subject`: each subject's line faint across the first within factor, cell means with CIs bold, one colour per between group), qq (residuals against normal quantiles), residuals (residuals against fitted values), null (the randomisation distribution of F, as `permute` computes it, with the F density and the observed F).",
         options: &[(
             "level L",
             "confidence level of the intervals in `means` (default 0.95)",
