@@ -143,9 +143,18 @@ pub const VERBS: &[VerbHelp] = &[
         usage: "permute Y across F… [in NAME] [subject S] [where CONDITION] [with draws N, seed K, threads T]",
         summary: "A randomisation test of each ANOVA effect's F, for skewed residuals, small samples or unequal spread: one factor permutes the responses across groups; several factors permute the residuals of the model without the effect (Freedman–Lane); with `subject`, within-subject effects permute each subject's values across its cells and between effects permute whole subjects. Exact when all distinct assignments number at most N, else Monte Carlo with p = (b + 1)/(m + 1) and a 99% interval. Long runs show progress; an interrupted run shows its partial result.",
         options: &[
-            ("draws N", "Monte Carlo draws (default 10,000; at most 10,000,000)"),
-            ("seed K", "the seed (a whole number); drawn and shown when not given, so a run can be repeated"),
-            ("threads T", "threads to use (default: all cores); the p does not depend on it"),
+            (
+                "draws N",
+                "Monte Carlo draws (default 10,000; at most 10,000,000)",
+            ),
+            (
+                "seed K",
+                "the seed (a whole number); drawn and shown when not given, so a run can be repeated",
+            ),
+            (
+                "threads T",
+                "threads to use (default: all cores); the p does not depend on it",
+            ),
             ("ss 2|3", "several factors: the type of the F statistic"),
         ],
         example: "permute weight across feed in trial with draws 20000, seed 7",

@@ -17,6 +17,11 @@ Factorial (issue 4): two factors (4 x 3), 1,000,000 unbalanced rows, type 3: tar
 after load; the round trip of the `anova` cell is printed beside statsmodels OLS + anova_lm
 (typ 3, Sum contrasts) on the same data, in the same run.
 
+Randomisation (issue 6): 100,000 draws, one-way, N = 1,000, k = 4: target <= 0.3 s on 2 cores;
+scipy.stats.permutation_test (vectorized F) on the same data in the same run, target ratio
+>= 50x. The kernel's peak resident memory (VmHWM) is printed after 10,000 and after 1,000,000
+draws: it should stay flat.
+
 This is a benchmark, not a test: it prints figures and ratios and fails only if something breaks.
 """
 import argparse
@@ -222,6 +227,66 @@ def factorial_bench(smoke):
     print(f"  ratio statsmodels/partita {sm_time / p_time:6.1f}x")
 
 
+def vm_hwm_kb(km):
+    try:
+        pid = km.provisioner.process.pid
+        for line in open(f"/proc/{pid}/status"):
+            if line.startswith("VmHWM:"):
+                return int(line.split()[1])
+    except Exception:
+        return None
+
+
+def permutation_bench(smoke):
+    import numpy as np
+    from scipy import stats
+
+    draws = 10_000 if smoke else 100_000
+    rng = np.random.default_rng(6)
+    groups = [rng.normal(10 + 0.05 * i, 1.0, size=250) for i in range(4)]
+    path = pathlib.Path(tempfile.mkdtemp(prefix="partita-bench-perm-")) / "perm.csv"
+    with open(path, "w") as f:
+        f.write("g,y\n")
+        for i, g in enumerate(groups):
+            for v in g:
+                f.write(f"G{i},{v:.6f}\n")
+    km, kc, _ = cold_start("partita")
+    run_cell(kc, f'read "{path}" as p')
+    run_cell(kc, "permute y across g in p with draws 1000, seed 1")
+    times = []
+    for rep in range(1 if smoke else 5):
+        t0 = time.perf_counter()
+        run_cell(kc, f"permute y across g in p with draws {draws}, seed {rep + 2}")
+        times.append(time.perf_counter() - t0)
+    p_time = statistics.median(times)
+    mem_small = vm_hwm_kb(km)
+    if not smoke:
+        run_cell(kc, "permute y across g in p with draws 1000000, seed 9")
+    mem_big = vm_hwm_kb(km)
+    kc.stop_channels()
+    km.shutdown_kernel(now=True)
+
+    def f_vec(*g, axis=-1):
+        n = [x.shape[axis] for x in g]
+        means = [x.mean(axis=axis) for x in g]
+        total = sum(n)
+        grand = sum(m * k for m, k in zip(means, n)) / total
+        ssb = sum(k * (m - grand) ** 2 for m, k in zip(means, n))
+        ssw = sum(((x - np.expand_dims(m, axis)) ** 2).sum(axis=axis) for x, m in zip(g, means))
+        return (ssb / 3) / (ssw / (total - 4))
+
+    t0 = time.perf_counter()
+    stats.permutation_test(groups, f_vec, permutation_type="independent", n_resamples=draws,
+                           alternative="greater", vectorized=True, rng=np.random.default_rng(0))
+    sp_time = time.perf_counter() - t0
+    print(f"randomisation test, one-way, N = 1,000, k = 4, {draws:,} draws ({os.cpu_count()} cores):")
+    print(f"  partita  {p_time * 1e3:8.1f} ms   (round trip; target <= 300 ms at 100,000 draws on 2 cores)")
+    print(f"  scipy permutation_test (vectorized) {sp_time * 1e3:8.1f} ms")
+    print(f"  ratio scipy/partita {sp_time / p_time:6.1f}x   (target >= 50x)")
+    if mem_small and mem_big:
+        print(f"  kernel peak memory: {mem_small / 1024:.1f} MiB after {draws:,} draws, {mem_big / 1024:.1f} MiB after 1,000,000 more")
+
+
 def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--bin", default=str(ROOT / "target" / "release" / "partita"))
@@ -246,6 +311,7 @@ def main():
     print(f"  ratio python/partita {y_rt / p_rt:6.1f}x")
     rm_bench(a.smoke)
     factorial_bench(a.smoke)
+    permutation_bench(a.smoke)
 
 
 if __name__ == "__main__":

@@ -18,14 +18,17 @@
 //!
 //! F* ≥ F is judged with a relative tolerance of 1e-9 so that assignments equivalent to the
 //! observed one count despite rounding. Reproducibility: draws are split into fixed blocks of
-//! 2,000; block j draws from ChaCha8 seeded with the seed, stream j, so the same seed gives the
-//! same p whatever the number of threads. Memory is flat: the null is kept as a fixed histogram.
+//! 2,000; block j draws from xoshiro256++ (Blackman & Vigna 2018) seeded by SplitMix64 from the
+//! seed and j, so the same seed gives the same p whatever the number of threads. With one
+//! factor, a draw is a partial Fisher–Yates shuffle that deals the values of every group but
+//! the first (whose sum is the rest), on values stored group by group. Memory is flat: the null
+//! is kept as a fixed histogram.
 
 use super::linear::{SsType, helmert, hypothesis_form, kron_all, reduced_fit, term_df};
 use crate::Cancel;
 use nalgebra::DMatrix;
 use rand::{Rng, SeedableRng};
-use rand_chacha::ChaCha8Rng;
+use rand_xoshiro::Xoshiro256PlusPlus as Gen;
 use rayon::prelude::*;
 
 /// Draws per block.
@@ -355,8 +358,9 @@ struct Block {
 }
 
 fn run_block(test: &Test, seed: u64, stream: u64, n: u64, upper: f64, cancel: &Cancel) -> Block {
-    let mut rng = ChaCha8Rng::seed_from_u64(seed);
-    rng.set_stream(stream);
+    let mut rng = Gen::seed_from_u64(splitmix(
+        seed ^ splitmix(stream.wrapping_add(0x5851_F42D_4C95_7F2D)),
+    ));
     let f_obs = test.f_obs();
     let mut out = Block {
         done: 0,
@@ -364,6 +368,51 @@ fn run_block(test: &Test, seed: u64, stream: u64, n: u64, upper: f64, cancel: &C
         null: Null::new(upper),
     };
     match test {
+        Test::Between(t) if t.one_factor => {
+            // Values stored group by group; a draw deals groups 1…k−1 from the end by a partial
+            // Fisher–Yates shuffle, group 0 keeps the rest.
+            let mut v: Vec<f64> = Vec::with_capacity(t.y.len());
+            let k = t.counts.len();
+            for g in 0..k {
+                v.extend(
+                    t.cell
+                        .iter()
+                        .zip(&t.y)
+                        .filter(|(c, _)| **c == g)
+                        .map(|(_, y)| *y),
+                );
+            }
+            let total: f64 = v.iter().sum();
+            let nn = v.len();
+            let mean = total / nn as f64;
+            let sst: f64 = v.iter().map(|x| (x - mean) * (x - mean)).sum();
+            let n0 = t.counts[0] as usize;
+            let mut bits = Bits::default();
+            for i in 0..n {
+                if i % 256 == 0 && cancel.is_cancelled() {
+                    break;
+                }
+                for p in (n0..nn).rev() {
+                    let j = bits.below(&mut rng, (p + 1) as u32);
+                    v.swap(p, j);
+                }
+                let mut at = n0;
+                let mut rest = total;
+                let mut ssb = 0.0;
+                for g in 1..k {
+                    let len = t.counts[g] as usize;
+                    let s: f64 = v[at..at + len].iter().sum();
+                    ssb += (s - t.counts[g] * mean).powi(2) / t.counts[g];
+                    rest -= s;
+                    at += len;
+                }
+                ssb += (rest - t.counts[0] * mean).powi(2) / t.counts[0];
+                let f = (ssb / t.df) / ((sst - ssb) / t.df_e);
+                out.ge += u64::from(tie(f, f_obs));
+                out.null.add(f);
+                out.done += 1;
+            }
+        }
         Test::Between(t) => {
             let mut r = t.resid.clone();
             let mut sums = vec![0.0; t.counts.len()];
@@ -405,11 +454,54 @@ fn run_block(test: &Test, seed: u64, stream: u64, n: u64, upper: f64, cancel: &C
     out
 }
 
-fn shuffle(v: &mut [f64], rng: &mut ChaCha8Rng) {
+fn shuffle(v: &mut [f64], rng: &mut Gen) {
     for i in (1..v.len()).rev() {
-        let j = rng.random_range(0..=i);
+        let j = below(rng, i + 1);
         v.swap(i, j);
     }
+}
+
+/// A uniform index in 0..n (Lemire's multiply-and-reject on 32 bits when n fits).
+fn below(rng: &mut Gen, n: usize) -> usize {
+    if n <= u32::MAX as usize {
+        rng.random_range(0..n as u32) as usize
+    } else {
+        rng.random_range(0..n)
+    }
+}
+
+/// Uniform indices from both 32-bit halves of each 64-bit output (Lemire 2019,
+/// multiply-and-reject), for the inner loop of the one-factor test.
+#[derive(Default)]
+struct Bits {
+    spare: Option<u32>,
+}
+
+impl Bits {
+    fn next(&mut self, rng: &mut Gen) -> u32 {
+        if let Some(x) = self.spare.take() {
+            return x;
+        }
+        let w = rand::RngCore::next_u64(rng);
+        self.spare = Some(w as u32);
+        (w >> 32) as u32
+    }
+    fn below(&mut self, rng: &mut Gen, n: u32) -> usize {
+        loop {
+            let m = u64::from(self.next(rng)) * u64::from(n);
+            let low = m as u32;
+            if low >= n || low >= n.wrapping_neg() % n {
+                return (m >> 32) as usize;
+            }
+        }
+    }
+}
+
+fn splitmix(mut z: u64) -> u64 {
+    z = z.wrapping_add(0x9E37_79B9_7F4A_7C15);
+    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+    z ^ (z >> 31)
 }
 
 /// Runs `draws` Monte Carlo draws (or every assignment when there are at most `draws`) on
@@ -430,7 +522,7 @@ pub fn run(
         .num_threads(threads.max(1))
         .build();
     let blocks = draws.div_ceil(BLOCK);
-    let wave = (2 * threads.max(1)) as u64;
+    let wave = (6 * threads.max(1)) as u64;
     let mut out = Outcome {
         done: 0,
         ge: 0,
