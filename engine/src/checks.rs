@@ -14,7 +14,7 @@ use crate::error::CellError;
 use crate::lang::ast::{Analysis, PlotKind, Verb};
 use crate::models::assumptions::{Center, shapiro_wilk, spread};
 use crate::models::linear::SsType;
-use crate::models::repeated::{Correction, RmData, fit};
+use crate::models::repeated::{Correction, fit};
 use crate::render::fmt::{df, num, p_report, p_table, stat};
 use crate::render::svg::{XyPanel, draw_panels};
 use crate::render::{Align, Answer, DisplayTable};
@@ -124,20 +124,7 @@ fn residuals(a: &Analysis, plan: &Plan<'_>) -> Result<Residuals, CellError> {
     let mut mauchly = Vec::new();
     let mut notes = sd.notes.clone();
     if !sd.within.is_empty() {
-        let data = RmData {
-            y: sd.y.clone(),
-            group: sd.group.clone(),
-            between: sd
-                .between
-                .iter()
-                .map(|f| (f.name.clone(), f.levels.len()))
-                .collect(),
-            within: sd
-                .within
-                .iter()
-                .map(|f| (f.name.clone(), f.levels.len()))
-                .collect(),
-        };
+        let data = sd.rm_data();
         let rm = fit(&data, SsType::Two, Correction::None)?;
         for s in &rm.sphericity {
             if let Some(w) = s.w {

@@ -8,7 +8,7 @@ use crate::error::CellError;
 use crate::lang::ast::{Analysis, Opt, PlotKind, Value, Verb};
 use crate::models::describe::{CellSummary, summarise};
 use crate::models::linear::SsType;
-use crate::models::repeated::{Correction, RmData, RmRow, fit};
+use crate::models::repeated::{Correction, RmRow, fit};
 use crate::render::fmt::{df, df_corrected, es, num, p_report, p_table, stat};
 use crate::render::svg::{Figure, Group, Profile, Series, draw, draw_profile};
 use crate::render::{Align, Answer, DisplayTable};
@@ -145,42 +145,23 @@ fn cells_table(
     y_label: &str,
     level: f64,
 ) -> DisplayTable {
-    let factors: Vec<_> = sd.between.iter().chain(&sd.within).collect();
-    let mut columns: Vec<(String, Align)> = factors
+    let factors: Vec<(String, String)> = sd
+        .between
         .iter()
-        .map(|f| (f.display.clone(), Align::Left))
+        .chain(&sd.within)
+        .map(|f| (f.name.clone(), f.display.clone()))
         .collect();
-    for h in ["subjects", "mean", "SD", "SE"] {
-        columns.push((h.into(), Align::Right));
+    let summaries: Vec<CellSummary> = cells.iter().map(|c| c.2.clone()).collect();
+    let mut t = crate::analysis::cells_display_of(y_label, &factors, &summaries, level);
+    // Counts are of subjects here.
+    if let Some(col) = t.columns.iter_mut().find(|c| c.0 == "n") {
+        col.0 = "subjects".into();
     }
-    columns.push((format!("{}% CI", pct(level)), Align::Right));
-    let opt = |x: Option<f64>| x.map(num).unwrap_or_else(|| "—".into());
-    let rows = cells
-        .iter()
-        .map(|(_, _, c, _)| {
-            let mut r: Vec<String> = factors
-                .iter()
-                .map(|f| c.levels.get(&f.name).cloned().unwrap_or_default())
-                .collect();
-            r.push(c.n.to_string());
-            r.push(num(c.mean));
-            r.push(opt(c.sd));
-            r.push(opt(c.se));
-            r.push(match (c.ci_low, c.ci_high) {
-                (Some(a), Some(b)) => format!("{} to {}", num(a), num(b)),
-                _ => "—".into(),
-            });
-            r
-        })
-        .collect();
-    DisplayTable {
-        caption: format!(
-            "{y_label} by cell over subjects (mean ± t-based {}% confidence interval)",
-            pct(level)
-        ),
-        columns,
-        rows,
-    }
+    t.caption = format!(
+        "{y_label} by cell over subjects (mean ± t-based {}% confidence interval)",
+        pct(level)
+    );
+    t
 }
 
 /// Most subject lines drawn in a profile figure; beyond it an evenly spaced sample is drawn.
@@ -510,20 +491,7 @@ pub(crate) fn run(
             });
         }
         Verb::Anova => {
-            let data = RmData {
-                y: sd.y.clone(),
-                group: sd.group.clone(),
-                between: sd
-                    .between
-                    .iter()
-                    .map(|f| (f.name.clone(), f.levels.len()))
-                    .collect(),
-                within: sd
-                    .within
-                    .iter()
-                    .map(|f| (f.name.clone(), f.levels.len()))
-                    .collect(),
-            };
+            let data = sd.rm_data();
             let rm = fit(&data, opts.ss, opts.correction).map_err(|e| e.at_if_none(a.verb_span))?;
             notes.extend(rm.notes.iter().cloned());
             let kind = match (sd.between.is_empty(), sd.within.is_empty()) {

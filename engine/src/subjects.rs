@@ -70,6 +70,20 @@ impl SubjectDesign {
     pub fn between_levels(&self, g: usize) -> Vec<&str> {
         decode(g, &self.between)
     }
+    /// The input of the repeated-measures model.
+    pub fn rm_data(&self) -> crate::models::repeated::RmData {
+        let sizes = |fs: &[FactorUse]| {
+            fs.iter()
+                .map(|f| (f.name.clone(), f.levels.len()))
+                .collect()
+        };
+        crate::models::repeated::RmData {
+            y: self.y.clone(),
+            group: self.group.clone(),
+            between: sizes(&self.between),
+            within: sizes(&self.within),
+        }
+    }
 }
 
 fn decode(mut idx: usize, fs: &[FactorUse]) -> Vec<&str> {

@@ -1,28 +1,10 @@
 //! `compare` through `Session::run_cell`: bad input and what the user is told. Numbers are
 //! checked against scipy and statsmodels in tests/python/test_compare.py.
 
-use engine::{Cancel, CellError, ErrorKind, Output, Session};
+mod common;
 
-fn run(s: &mut Session, src: &str) -> Result<Vec<Output>, CellError> {
-    let mut out = Vec::new();
-    s.run_cell(src, &Cancel::default(), &mut out).map(|_| out)
-}
-
-fn with_data(text: &str) -> Session {
-    static N: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
-    let n = N.fetch_add(1, std::sync::atomic::Ordering::SeqCst);
-    let d = std::env::temp_dir().join(format!("partita-cmp-{}", std::process::id()));
-    std::fs::create_dir_all(&d).unwrap();
-    let p = d.join(format!("d{n}.csv"));
-    std::fs::write(&p, text).unwrap();
-    let mut s = Session::new();
-    run(&mut s, &format!("read \"{}\" as d", p.display())).unwrap();
-    s
-}
-
-fn bundle(o: &Output) -> &serde_json::Value {
-    &o.data["application/vnd.partita.result+json"]
-}
+use common::{bundle, run, with_data};
+use engine::ErrorKind;
 
 const THREE: &str = "g,y\na,1\na,2\na,3\nb,4\nb,5\nb,6.5\nc,9\nc,10\nc,12\n";
 

@@ -1,28 +1,10 @@
 //! Factorial ANOVA, Welch and `check` through `Session::run_cell`: bad input and what the user
 //! is told. Numbers are checked against statsmodels and scipy in tests/python/test_factorial.py.
 
-use engine::{Cancel, CellError, ErrorKind, Output, Session};
+mod common;
 
-fn run(s: &mut Session, src: &str) -> Result<Vec<Output>, CellError> {
-    let mut out = Vec::new();
-    s.run_cell(src, &Cancel::default(), &mut out).map(|_| out)
-}
-
-fn with_data(text: &str) -> Session {
-    static N: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
-    let n = N.fetch_add(1, std::sync::atomic::Ordering::SeqCst);
-    let d = std::env::temp_dir().join(format!("partita-fac-{}", std::process::id()));
-    std::fs::create_dir_all(&d).unwrap();
-    let p = d.join(format!("d{n}.csv"));
-    std::fs::write(&p, text).unwrap();
-    let mut s = Session::new();
-    run(&mut s, &format!("read \"{}\" as d", p.display())).unwrap();
-    s
-}
-
-fn bundle(o: &Output) -> &serde_json::Value {
-    &o.data["application/vnd.partita.result+json"]
-}
+use common::{bundle, run, with_data};
+use engine::ErrorKind;
 
 const TWO_BY_TWO: &str = "a,b,y\nx,p,1\nx,p,2\nx,q,3\nx,q,5\ny,p,4\ny,p,4.5\ny,q,8\ny,q,9\ny,q,7\n";
 

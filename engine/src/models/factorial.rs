@@ -93,25 +93,7 @@ pub fn term_name(names: &[String], term: &[usize]) -> String {
 }
 
 fn row(effect: String, df: f64, ss: f64) -> EffectRow {
-    EffectRow {
-        effect,
-        df,
-        ss,
-        ms: None,
-        f: None,
-        p: None,
-        df_error: None,
-        ss_error: None,
-        eta2: None,
-        omega2: None,
-        eta2_partial: None,
-        omega2_partial: None,
-        eta2_ci_low: None,
-        eta2_ci_high: None,
-        f_ci_low: None,
-        f_ci_high: None,
-        level: None,
-    }
+    EffectRow::blank(effect, df, ss)
 }
 
 /// Fits the full factorial of `stats` (every cell non-empty); `total_ss` is the centred total.

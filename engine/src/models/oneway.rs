@@ -75,6 +75,31 @@ pub struct EffectRow {
     pub level: Option<f64>,
 }
 
+impl EffectRow {
+    /// A row with its name, df and SS, every other field empty.
+    pub fn blank(effect: impl Into<String>, df: f64, ss: f64) -> EffectRow {
+        EffectRow {
+            effect: effect.into(),
+            df,
+            ss,
+            ms: None,
+            f: None,
+            p: None,
+            df_error: None,
+            ss_error: None,
+            eta2: None,
+            omega2: None,
+            eta2_partial: None,
+            omega2_partial: None,
+            eta2_ci_low: None,
+            eta2_ci_high: None,
+            f_ci_low: None,
+            f_ci_high: None,
+            level: None,
+        }
+    }
+}
+
 /// A one-way ANOVA result.
 #[derive(Debug, Clone, PartialEq)]
 pub struct OneWay {
@@ -174,43 +199,10 @@ pub fn oneway(effect: &str, groups: &[Vec<f64>]) -> Result<OneWay, CellError> {
             level: None,
         },
         EffectRow {
-            effect: "Residual".into(),
-            df: df_w,
-            ss: ss_w,
             ms: Some(ms_w),
-            f: None,
-            p: None,
-            df_error: None,
-            ss_error: None,
-            eta2: None,
-            omega2: None,
-            eta2_partial: None,
-            omega2_partial: None,
-            eta2_ci_low: None,
-            eta2_ci_high: None,
-            f_ci_low: None,
-            f_ci_high: None,
-            level: None,
+            ..EffectRow::blank("Residual", df_w, ss_w)
         },
-        EffectRow {
-            effect: "Total".into(),
-            df: (n - 1) as f64,
-            ss: ss_t,
-            ms: None,
-            f: None,
-            p: None,
-            df_error: None,
-            ss_error: None,
-            eta2: None,
-            omega2: None,
-            eta2_partial: None,
-            omega2_partial: None,
-            eta2_ci_low: None,
-            eta2_ci_high: None,
-            f_ci_low: None,
-            f_ci_high: None,
-            level: None,
-        },
+        EffectRow::blank("Total", (n - 1) as f64, ss_t),
     ];
     Ok(OneWay { rows, k, n, notes })
 }
