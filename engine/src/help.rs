@@ -193,6 +193,16 @@ pub const VERBS: &[VerbHelp] = &[
         example: "power groups 3 with means (4.1, 4.6, 5.3), sd 0.6, power 0.8",
     },
     VerbHelp {
+        verb: "save",
+        usage: "save LAST to \"PATH\" [with table N]",
+        summary: "Writes the last result's table as CSV (`.csv`; the first table unless `table N`) or its figure as SVG (`.svg`). The file is written whole or not at all (a temporary file, then a rename); a file read as data in this session is never overwritten.",
+        options: &[(
+            "table N",
+            "which table of the result to write as CSV (default 1)",
+        )],
+        example: "save LAST to \"results/anova.csv\"",
+    },
+    VerbHelp {
         verb: "help",
         usage: "help [VERB]",
         summary: "The language reference, or one verb's entry.",

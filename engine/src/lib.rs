@@ -33,6 +33,7 @@ mod permute;
 mod power;
 pub mod render;
 mod repeated;
+mod save;
 mod session;
 pub mod simultaneous;
 pub mod subjects;

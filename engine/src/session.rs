@@ -1,6 +1,6 @@
 //! The session: datasets by name, the statement runner, completion and inspection.
 
-use crate::data::csv::{ReadOptions, read_file};
+use crate::data::csv::{ReadOptions, parse_bytes, read_bytes};
 use crate::data::{ColumnData, Dataset};
 use crate::design::plural;
 use crate::error::{CellError, Span, nearest};
@@ -38,6 +38,14 @@ pub struct Session {
     datasets: BTreeMap<String, Dataset>,
     current: Option<String>,
     base_dir: Option<PathBuf>,
+    /// The file each dataset was read from (full path) and the read options, for change
+    /// detection: the same file read with other options is parsed again.
+    origins: BTreeMap<String, (PathBuf, String)>,
+    /// Headline and content hash of each analysis statement's last answer, keyed by the
+    /// statement's text and dataset: the "was … → now …" line when the data changed.
+    history: BTreeMap<(String, String), (String, String)>,
+    /// The last answer with tables or a figure (for `save LAST`).
+    last: Option<Answer>,
 }
 
 impl Session {
@@ -76,11 +84,42 @@ impl Session {
             let answer = self
                 .run_statement(&st.kind, st.span, cancel, &mut *sink)
                 .map_err(|e| e.at_if_none(st.span))?;
+            let answer = answer.map(|a| self.was_now(a, &src[st.span.start..st.span.end]));
+            if let Some(a) = &answer {
+                if !matches!(st.kind, StmtKind::Save { .. })
+                    && (!a.tables.is_empty() || a.figure.is_some())
+                {
+                    self.last = Some(a.clone());
+                }
+            }
             if let Some(a) = answer {
                 sink.display(Output::answer(a.mime_bundle(), i == last));
             }
         }
         Ok(())
+    }
+
+    /// Adds "was … → now …" to an analysis whose dataset changed since the statement last ran.
+    fn was_now(&mut self, mut a: Answer, text: &str) -> Answer {
+        let (Some(p), Some(report)) = (&a.provenance, &a.report) else {
+            return a;
+        };
+        let headline = format!(
+            "{}, n = {}",
+            report.split("; ").next().unwrap_or(report),
+            p.rows_used
+        );
+        let key = (
+            text.split_whitespace().collect::<Vec<_>>().join(" "),
+            p.dataset.clone(),
+        );
+        if let Some((old, sha)) = self.history.get(&key) {
+            if *sha != p.sha256 {
+                a.notes.insert(0, format!("was {old} → now {headline}"));
+            }
+        }
+        self.history.insert(key, (headline, p.sha256.clone()));
+        a
     }
 
     fn run_statement(
@@ -160,6 +199,20 @@ impl Session {
                 count,
                 options,
             } => crate::power::run(design, count, options).map(Some),
+            StmtKind::Save {
+                what,
+                path,
+                options,
+            } => {
+                let full = match &self.base_dir {
+                    Some(b) if !std::path::Path::new(&path.value).is_absolute() => {
+                        b.join(&path.value)
+                    }
+                    _ => PathBuf::from(&path.value),
+                };
+                let inputs: Vec<PathBuf> = self.origins.values().map(|o| o.0.clone()).collect();
+                crate::save::save(self.last.as_ref(), what, path, &full, options, &inputs).map(Some)
+            }
             StmtKind::Help { topic } => help_answer(topic.as_ref()).map(Some),
             StmtKind::Pause { seconds } => {
                 let end = std::time::Instant::now()
@@ -274,10 +327,54 @@ impl Session {
             Some(b) if !std::path::Path::new(&path.value).is_absolute() => b.join(&path.value),
             _ => PathBuf::from(&path.value),
         };
-        let ds =
-            read_file(&full, &path.value, &name.value, &ro).map_err(|e| e.at_if_none(path.span))?;
-        let answer = read_answer(&ds);
+        let bytes = read_bytes(&full, &path.value).map_err(|e| e.at_if_none(path.span))?;
+        let how = format!("{ro:?}");
+        let same_file = self.origins.get(&name.value).is_some_and(|o| o.0 == full);
+        let same_options = self.origins.get(&name.value).is_some_and(|o| o.1 == how);
+        let previous = self.datasets.get(&name.value).filter(|_| same_file);
+        let content_same = previous.is_some_and(|prev| {
+            use sha2::{Digest, Sha256};
+            hex::encode(Sha256::digest(&bytes)) == prev.sha256
+        });
+        if let Some(prev) = previous.filter(|_| same_options) {
+            if content_same {
+                let mut a = read_answer(prev);
+                a.notes.insert(
+                    0,
+                    format!(
+                        "unchanged since it was read at {} (same content, sha256 {}…): not parsed again",
+                        prev.read_at,
+                        &prev.sha256[..12]
+                    ),
+                );
+                self.current = Some(name.value.clone());
+                return Ok(a);
+            }
+        }
+        let mut ds = parse_bytes(&bytes, &path.value, &name.value, &ro)
+            .map_err(|e| e.at_if_none(path.span))?;
+        let mut changes = Vec::new();
+        if let Some(prev) = previous {
+            if !content_same {
+                changes = crate::data::changes::describe(prev, &ds);
+            }
+            crate::data::changes::carry_over(prev, &mut ds);
+        }
+        let mut answer = read_answer(&ds);
+        if let Some(prev) = previous.filter(|_| !content_same) {
+            let mut lines = vec![format!(
+                "{} changed since it was read at {}: {}",
+                path.value,
+                prev.read_at,
+                changes.first().cloned().unwrap_or_default()
+            )];
+            lines.extend(changes.into_iter().skip(1));
+            for (i, l) in lines.into_iter().enumerate() {
+                answer.notes.insert(i, l);
+            }
+        }
         self.current = Some(name.value.clone());
+        self.origins.insert(name.value.clone(), (full, how));
         self.datasets.insert(name.value.clone(), ds);
         Ok(answer)
     }

@@ -53,7 +53,19 @@ pub fn read_file(
             "\"{shown}\" is a folder, not a file; give the path of a .csv or .tsv file"
         )));
     }
-    let bytes = std::fs::read(path).map_err(|e| {
+    let bytes = read_bytes(path, shown)?;
+    parse_bytes(&bytes, shown, name, opts)
+}
+
+/// The bytes of the file at `path` (`shown` as the user wrote it), with the same messages as
+/// [`read_file`].
+pub fn read_bytes(path: &std::path::Path, shown: &str) -> Result<Vec<u8>, CellError> {
+    if path.is_dir() {
+        return Err(CellError::data(format!(
+            "\"{shown}\" is a folder, not a file; give the path of a .csv or .tsv file"
+        )));
+    }
+    std::fs::read(path).map_err(|e| {
         let what = match e.kind() {
             std::io::ErrorKind::NotFound => "there is no such file".to_string(),
             std::io::ErrorKind::PermissionDenied => "permission to read it was refused".to_string(),
@@ -65,8 +77,7 @@ pub fn read_file(
         CellError::data(format!("cannot read \"{shown}\": {what}")).note(format!(
             "relative paths start from the working folder, {cwd}"
         ))
-    })?;
-    parse_bytes(&bytes, shown, name, opts)
+    })
 }
 
 /// Parses file contents (used by [`read_file`] and by tests).

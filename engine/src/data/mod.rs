@@ -5,6 +5,7 @@
 //! stable sums of squares, see [`decimal`]) or a factor ([`FactorColumn`], level codes in the
 //! order the levels first appear, reorderable with `levels`).
 
+pub mod changes;
 pub mod csv;
 pub mod decimal;
 pub mod reshape;

@@ -78,6 +78,15 @@ pub enum StmtKind {
     },
     /// `describe`, `anova`, `plot KIND` with the shared clauses.
     Analysis(Analysis),
+    /// `save LAST to "PATH" [with table N]`
+    Save {
+        /// The word naming what is saved (`LAST`).
+        what: Name,
+        /// The path.
+        path: Spanned<String>,
+        /// Options.
+        options: Vec<Opt>,
+    },
     /// `help [TOPIC]`
     Help {
         /// The verb asked about.

@@ -268,6 +268,27 @@ impl<'a> Parser<'a> {
                     options,
                 }
             }
+            "save" => {
+                let what = self.name("`LAST` (the last result)")?;
+                if what.value != "LAST" {
+                    return Err(CellError::syntax(
+                        what.span,
+                        format!(
+                            "`save` saves the last result: write `save LAST to \"PATH\"`, not `{}`",
+                            what.value
+                        ),
+                    ));
+                }
+                self.expect_word("to")?;
+                let path =
+                    self.string("a file path in double quotes, e.g. \"results/anova.csv\"")?;
+                let options = self.options()?;
+                StmtKind::Save {
+                    what,
+                    path,
+                    options,
+                }
+            }
             "help" => {
                 let topic = if self.at_end() {
                     None

@@ -1,0 +1,154 @@
+//! `save LAST to "PATH" [with table N]`: the last result's table as CSV or its figure as SVG,
+//! written atomically (a temporary file in the same folder, then a rename). A file the session
+//! read as data is never overwritten.
+
+use crate::error::CellError;
+use crate::lang::ast::{Name, Opt, Spanned};
+use crate::render::Answer;
+use std::path::{Path, PathBuf};
+
+fn same_file(a: &Path, b: &Path) -> bool {
+    match (a.canonicalize(), b.canonicalize()) {
+        (Ok(x), Ok(y)) => x == y,
+        _ => a == b,
+    }
+}
+
+/// Writes `bytes` to `path` through a temporary file in the same folder.
+pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
+    let dir = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("out");
+    let tmp = dir.join(format!(".{name}.partita-tmp-{}", std::process::id()));
+    std::fs::write(&tmp, bytes)?;
+    std::fs::rename(&tmp, path).inspect_err(|_| {
+        let _ = std::fs::remove_file(&tmp);
+    })
+}
+
+/// Saves part of `last`.
+pub(crate) fn save(
+    last: Option<&Answer>,
+    what: &Name,
+    path: &Spanned<String>,
+    full: &Path,
+    options: &[Opt],
+    inputs: &[PathBuf],
+) -> Result<Answer, CellError> {
+    crate::session::check_options(options, "save", &["table"])?;
+    let last = last.ok_or_else(|| {
+        CellError::input("there is no result to save yet")
+            .at(what.span)
+            .note("run an analysis first, then `save LAST to \"results/table.csv\"`")
+    })?;
+    if inputs.iter().any(|p| same_file(p, full)) {
+        return Err(CellError::input(format!(
+            "\"{}\" was read as data in this session; saving over it is refused",
+            path.value
+        ))
+        .at(path.span)
+        .note("choose another file name"));
+    }
+    let dir = full
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    if !dir.is_dir() {
+        return Err(
+            CellError::input(format!("the folder \"{}\" does not exist", dir.display()))
+                .at(path.span)
+                .note("create it first, or save into an existing folder"),
+        );
+    }
+    if full.is_dir() {
+        return Err(CellError::input(format!(
+            "\"{}\" is a folder; give a file name ending in .csv or .svg",
+            path.value
+        ))
+        .at(path.span));
+    }
+    let ext = full
+        .extension()
+        .and_then(|e| e.to_str())
+        .unwrap_or("")
+        .to_ascii_lowercase();
+    let mut table_no = 1usize;
+    for o in options {
+        table_no = crate::session::one_number(o)? as usize;
+    }
+    let (bytes, said) = match ext.as_str() {
+        "csv" => {
+            if last.tables.is_empty() {
+                return Err(
+                    CellError::input("the last result has no table to save as CSV").at(path.span),
+                );
+            }
+            let t = last.tables.get(table_no.wrapping_sub(1)).ok_or_else(|| {
+                CellError::input(format!(
+                    "the last result has {} table{}; `table {table_no}` does not exist",
+                    last.tables.len(),
+                    if last.tables.len() == 1 { "" } else { "s" }
+                ))
+                .note(
+                    last.tables
+                        .iter()
+                        .enumerate()
+                        .map(|(i, t)| format!("table {}: {}", i + 1, t.caption))
+                        .collect::<Vec<_>>()
+                        .join("; "),
+                )
+            })?;
+            let mut w = csv::Writer::from_writer(Vec::new());
+            let header: Vec<&str> = t.columns.iter().map(|c| c.0.as_str()).collect();
+            let write = |w: &mut csv::Writer<Vec<u8>>, r: &[&str]| {
+                w.write_record(r)
+                    .map_err(|e| CellError::input(format!("cannot write the table: {e}")))
+            };
+            write(&mut w, &header)?;
+            for r in &t.rows {
+                write(&mut w, &r.iter().map(String::as_str).collect::<Vec<_>>())?;
+            }
+            let bytes = w
+                .into_inner()
+                .map_err(|e| CellError::input(format!("cannot write the table: {e}")))?;
+            (
+                bytes,
+                format!(
+                    "table {table_no} (\"{}\"), {} rows",
+                    t.caption,
+                    t.rows.len()
+                ),
+            )
+        }
+        "svg" => {
+            let svg = last.figure.as_ref().ok_or_else(|| {
+                CellError::input("the last result has no figure to save").at(path.span)
+            })?;
+            (svg.clone().into_bytes(), "the figure (SVG)".to_string())
+        }
+        other => {
+            return Err(CellError::input(format!(
+                "`save` writes .csv (a table) or .svg (the figure), not \"{}\"",
+                if other.is_empty() {
+                    "a name without an extension"
+                } else {
+                    other
+                }
+            ))
+            .at(path.span));
+        }
+    };
+    write_atomic(full, &bytes).map_err(|e| {
+        CellError::input(format!("cannot write \"{}\": {e}", path.value)).at(path.span)
+    })?;
+    Ok(Answer {
+        command: "save".into(),
+        plain: Some(format!(
+            "saved {said} of the last result ({}) to {}",
+            last.command, path.value
+        )),
+        ..Default::default()
+    })
+}
