@@ -21,7 +21,8 @@
 //! 2,000; block j draws from xoshiro256++ (Blackman & Vigna 2018) seeded by SplitMix64 from the
 //! seed and j, so the same seed gives the same p whatever the number of threads. With one
 //! factor, a draw is a partial Fisher–Yates shuffle that deals the values of every group but
-//! the first (whose sum is the rest), on values stored group by group. Memory is flat: the null
+//! the first (whose sum is the rest), on values stored group by group; draws are made two at a
+//! time from two generators of the block so that their dependency chains overlap. Memory is flat: the null
 //! is kept as a fixed histogram.
 
 use super::linear::{SsType, helmert, hypothesis_form, kron_all, reduced_fit, term_df};
@@ -387,30 +388,52 @@ fn run_block(test: &Test, seed: u64, stream: u64, n: u64, upper: f64, cancel: &C
             let mean = total / nn as f64;
             let sst: f64 = v.iter().map(|x| (x - mean) * (x - mean)).sum();
             let n0 = t.counts[0] as usize;
-            let mut bits = Bits::default();
-            for i in 0..n {
-                if i % 256 == 0 && cancel.is_cancelled() {
-                    break;
-                }
-                for p in (n0..nn).rev() {
-                    let j = bits.below(&mut rng, (p + 1) as u32);
-                    v.swap(p, j);
-                }
+            let f_of = |v: &[f64]| {
                 let mut at = n0;
                 let mut rest = total;
                 let mut ssb = 0.0;
                 for g in 1..k {
                     let len = t.counts[g] as usize;
-                    let s: f64 = v[at..at + len].iter().sum();
+                    let s = sum4(&v[at..at + len]);
                     ssb += (s - t.counts[g] * mean).powi(2) / t.counts[g];
                     rest -= s;
                     at += len;
                 }
                 ssb += (rest - t.counts[0] * mean).powi(2) / t.counts[0];
-                let f = (ssb / t.df) / ((sst - ssb) / t.df_e);
-                out.ge += u64::from(tie(f, f_obs));
-                out.null.add(f);
-                out.done += 1;
+                (ssb / t.df) / ((sst - ssb) / t.df_e)
+            };
+            // Two draws at a time from two generators, so that their dependency chains
+            // (generator state, multiply, swap) overlap in the processor.
+            let mut rng_b =
+                Gen::seed_from_u64(splitmix(splitmix(seed ^ 0xA076_1D64_78BD_642F) ^ stream));
+            let mut vb = v.clone();
+            let (mut bits_a, mut bits_b) = (Bits::default(), Bits::default());
+            let mut i = 0;
+            while i < n {
+                if i % 256 < 2 && cancel.is_cancelled() {
+                    break;
+                }
+                let fs = if i + 1 < n {
+                    for p in (n0..nn).rev() {
+                        let ja = bits_a.below(&mut rng, (p + 1) as u32);
+                        let jb = bits_b.below(&mut rng_b, (p + 1) as u32);
+                        v.swap(p, ja);
+                        vb.swap(p, jb);
+                    }
+                    [Some(f_of(&v)), Some(f_of(&vb))]
+                } else {
+                    for p in (n0..nn).rev() {
+                        let j = bits_a.below(&mut rng, (p + 1) as u32);
+                        v.swap(p, j);
+                    }
+                    [Some(f_of(&v)), None]
+                };
+                for f in fs.into_iter().flatten() {
+                    out.ge += u64::from(tie(f, f_obs));
+                    out.null.add(f);
+                    out.done += 1;
+                    i += 1;
+                }
             }
         }
         Test::Between(t) => {
@@ -452,6 +475,20 @@ fn run_block(test: &Test, seed: u64, stream: u64, n: u64, upper: f64, cancel: &C
         }
     }
     out
+}
+
+/// A sum with four running accumulators (the single-accumulator loop waits on each addition).
+fn sum4(v: &[f64]) -> f64 {
+    let mut acc = [0.0f64; 4];
+    let chunks = v.chunks_exact(4);
+    let rest = chunks.remainder();
+    for c in chunks {
+        acc[0] += c[0];
+        acc[1] += c[1];
+        acc[2] += c[2];
+        acc[3] += c[3];
+    }
+    (acc[0] + acc[1]) + (acc[2] + acc[3]) + rest.iter().sum::<f64>()
 }
 
 fn shuffle(v: &mut [f64], rng: &mut Gen) {
