@@ -194,8 +194,8 @@ pub const VERBS: &[VerbHelp] = &[
     },
     VerbHelp {
         verb: "save",
-        usage: "save LAST to \"PATH\" [with table N]",
-        summary: "Writes the last result's table as CSV (`.csv`; the first table unless `table N`) or its figure as SVG (`.svg`). The file is written whole or not at all (a temporary file, then a rename); a file read as data in this session is never overwritten.",
+        usage: "save LAST to \"PATH\" [with table N, dpi D]",
+        summary: "Writes the last result's table as CSV (`.csv`; the first table unless `table N`) or its figure as SVG (`.svg`) or PNG (`.png`, at `dpi D`, 300 by default, with an embedded font so text renders the same everywhere). The file is written whole or not at all (a temporary file, then a rename); a file read as data in this session is never overwritten.",
         options: &[(
             "table N",
             "which table of the result to write as CSV (default 1)",

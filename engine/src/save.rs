@@ -1,6 +1,8 @@
-//! `save LAST to "PATH" [with table N]`: the last result's table as CSV or its figure as SVG,
-//! written atomically (a temporary file in the same folder, then a rename). A file the session
-//! read as data is never overwritten.
+//! `save LAST to "PATH" [with table N, dpi D]`: the last result's table as CSV or its figure as
+//! SVG or PNG, written atomically (a temporary file in the same folder, then a rename). A file the
+//! session read as data is never overwritten. PNG: the SVG rasterised by resvg (pure Rust) at
+//! D dots per inch (default 300, for journals), the SVG's pixel unit taken as 1/96 inch, text in
+//! the DejaVu Sans font embedded in the engine (`engine/fonts/`).
 
 use crate::error::CellError;
 use crate::lang::ast::{Name, Opt, Spanned};
@@ -28,6 +30,39 @@ pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     })
 }
 
+/// The embedded font for rasterised text.
+const FONT: &[u8] = include_bytes!("../fonts/DejaVuSans.ttf");
+
+/// Rasterises `svg` at `dpi`: PNG bytes, width and height in pixels.
+pub fn rasterise(svg: &str, dpi: f64) -> Result<(Vec<u8>, u32, u32), String> {
+    use resvg::{tiny_skia, usvg};
+    let mut opt = usvg::Options::default();
+    {
+        let db = std::sync::Arc::make_mut(&mut opt.fontdb);
+        db.load_font_data(FONT.to_vec());
+        db.set_sans_serif_family("DejaVu Sans");
+        db.set_serif_family("DejaVu Sans");
+    }
+    opt.font_family = "DejaVu Sans".into();
+    opt.dpi = dpi as f32;
+    let tree = usvg::Tree::from_str(svg, &opt).map_err(|e| e.to_string())?;
+    let scale = (dpi / 96.0) as f32;
+    let size = tree.size();
+    let (w, h) = (
+        (size.width() * scale).ceil() as u32,
+        (size.height() * scale).ceil() as u32,
+    );
+    let mut pixmap = tiny_skia::Pixmap::new(w.max(1), h.max(1)).ok_or("the figure has no size")?;
+    pixmap.fill(tiny_skia::Color::WHITE);
+    resvg::render(
+        &tree,
+        tiny_skia::Transform::from_scale(scale, scale),
+        &mut pixmap.as_mut(),
+    );
+    let png = pixmap.encode_png().map_err(|e| e.to_string())?;
+    Ok((png, w, h))
+}
+
 /// Saves part of `last`.
 pub(crate) fn save(
     last: Option<&Answer>,
@@ -37,7 +72,7 @@ pub(crate) fn save(
     options: &[Opt],
     inputs: &[PathBuf],
 ) -> Result<Answer, CellError> {
-    crate::session::check_options(options, "save", &["table"])?;
+    crate::session::check_options(options, "save", &["table", "dpi"])?;
     let last = last.ok_or_else(|| {
         CellError::input("there is no result to save yet")
             .at(what.span)
@@ -75,8 +110,21 @@ pub(crate) fn save(
         .unwrap_or("")
         .to_ascii_lowercase();
     let mut table_no = 1usize;
+    let mut dpi = 300.0;
     for o in options {
-        table_no = crate::session::one_number(o)? as usize;
+        let v = crate::session::one_number(o)?;
+        match o.name.value.as_str() {
+            "dpi" => {
+                if !(36.0..=1200.0).contains(&v) {
+                    return Err(CellError::input(
+                        "`dpi` is between 36 and 1200 (300 is usual for journals)",
+                    )
+                    .at(o.span));
+                }
+                dpi = v;
+            }
+            _ => table_no = v as usize,
+        }
     }
     let (bytes, said) = match ext.as_str() {
         "csv" => {
@@ -128,9 +176,21 @@ pub(crate) fn save(
             })?;
             (svg.clone().into_bytes(), "the figure (SVG)".to_string())
         }
+        "png" => {
+            let svg = last.figure.as_ref().ok_or_else(|| {
+                CellError::input("the last result has no figure to save").at(path.span)
+            })?;
+            let (png, w, h) = rasterise(svg, dpi).map_err(|e| {
+                CellError::input(format!("the figure could not be rasterised: {e}")).at(path.span)
+            })?;
+            (
+                png,
+                format!("the figure (PNG, {w} × {h} pixels at {dpi} dpi)"),
+            )
+        }
         other => {
             return Err(CellError::input(format!(
-                "`save` writes .csv (a table) or .svg (the figure), not \"{}\"",
+                "`save` writes .csv (a table), .svg or .png (the figure), not \"{}\"",
                 if other.is_empty() {
                     "a name without an extension"
                 } else {
@@ -151,4 +211,20 @@ pub(crate) fn save(
         )),
         ..Default::default()
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn png_has_the_size_the_dpi_gives() {
+        let svg = r#"<svg xmlns="http://www.w3.org/2000/svg" width="200" height="100"><text x="10" y="50" font-family="sans-serif" font-size="20">feed</text></svg>"#;
+        let (png, w, h) = rasterise(svg, 192.0).unwrap();
+        assert_eq!((w, h), (400, 200));
+        assert_eq!(&png[..8], b"\x89PNG\r\n\x1a\n");
+        // IHDR: width and height, big-endian, at bytes 16..24.
+        assert_eq!(u32::from_be_bytes(png[16..20].try_into().unwrap()), 400);
+        assert_eq!(u32::from_be_bytes(png[20..24].try_into().unwrap()), 200);
+    }
 }

@@ -69,11 +69,11 @@ fn saves_tables_and_figures_atomically_and_refuses_bad_targets() {
     assert!(e.message.contains("does not exist"), "{}", e.message);
     let e = run(
         &mut s,
-        &format!("save LAST to \"{}\"", dir.join("x.png").display()),
+        &format!("save LAST to \"{}\"", dir.join("x.xlsx").display()),
     )
     .unwrap_err();
     assert_eq!(e.kind, ErrorKind::InputError);
-    assert!(e.message.contains(".csv (a table) or .svg"));
+    assert!(e.message.contains(".csv (a table), .svg or .png"), "{}", e.message);
     let e = run(
         &mut s,
         &format!(
