@@ -20,7 +20,7 @@ pub const VERBS: &[VerbHelp] = &[
     VerbHelp {
         verb: "read",
         usage: "read \"PATH\" as NAME [with OPTION VALUE, …]",
-        summary: "Loads a CSV, TSV or semicolon-separated file as dataset NAME. The separator is detected from the header line; numeric and factor columns are detected from the values.",
+        summary: "Loads a CSV, TSV or semicolon-separated file, or a sheet of a spreadsheet (.xlsx, .xlsm, .xls, .ods), as dataset NAME. The separator is detected from the header line; numeric and factor columns are detected from the values. Reading the same file again says what changed since the last read.",
         options: &[
             (
                 "factor C1 C2 …",
@@ -38,6 +38,10 @@ pub const VERBS: &[VerbHelp] = &[
             (
                 "header N",
                 "the header is on line N (lines above it are skipped); 0 for no header",
+            ),
+            (
+                "sheet \"NAME\"",
+                "spreadsheets: the sheet to read (default the first)",
             ),
         ],
         example: "read \"data/feeding.csv\" as trial with factor pen",

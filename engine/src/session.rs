@@ -269,7 +269,14 @@ impl Session {
         check_options(
             options,
             "read",
-            &["factor", "missing", "delimiter", "decimal", "header"],
+            &[
+                "factor",
+                "missing",
+                "delimiter",
+                "decimal",
+                "header",
+                "sheet",
+            ],
         )?;
         let mut ro = ReadOptions::new();
         for o in options {
@@ -328,7 +335,22 @@ impl Session {
             _ => PathBuf::from(&path.value),
         };
         let bytes = read_bytes(&full, &path.value).map_err(|e| e.at_if_none(path.span))?;
-        let how = format!("{ro:?}");
+        let sheet_opt = options.iter().find(|o| o.name.value == "sheet");
+        let spreadsheet = crate::data::sheet::is_spreadsheet(&full);
+        if let (Some(o), false) = (sheet_opt, spreadsheet) {
+            return Err(
+                CellError::input("`sheet` is for spreadsheets (.xlsx, .xlsm, .xls, .ods)")
+                    .at(o.span),
+            );
+        }
+        let sheet_text = options.iter().find(|o| o.name.value == "sheet").map(|o| {
+            o.values
+                .iter()
+                .map(|v| v.value.text())
+                .collect::<Vec<_>>()
+                .join(",")
+        });
+        let how = format!("{ro:?} sheet {sheet_text:?}");
         let same_file = self.origins.get(&name.value).is_some_and(|o| o.0 == full);
         let same_options = self.origins.get(&name.value).is_some_and(|o| o.1 == how);
         let previous = self.datasets.get(&name.value).filter(|_| same_file);
@@ -351,8 +373,30 @@ impl Session {
                 return Ok(a);
             }
         }
-        let mut ds = parse_bytes(&bytes, &path.value, &name.value, &ro)
+        let mut ds = if spreadsheet {
+            let wanted = match sheet_opt {
+                Some(o) => Some((one_text(o)?, o.span)),
+                None => None,
+            };
+            let (text, sheet) = crate::data::sheet::to_csv(
+                &bytes,
+                &path.value,
+                wanted.as_ref().map(|(s, sp)| (s.as_str(), *sp)),
+            )
             .map_err(|e| e.at_if_none(path.span))?;
+            let mut sro = ro.clone();
+            sro.delimiter = Some(b',');
+            sro.decimal_comma = false;
+            let mut ds = parse_bytes(&text, &path.value, &name.value, &sro)
+                .map_err(|e| e.at_if_none(path.span))?;
+            use sha2::{Digest, Sha256};
+            ds.sha256 = hex::encode(Sha256::digest(&bytes));
+            ds.source = format!("{} (sheet \"{sheet}\")", path.value);
+            ds
+        } else {
+            parse_bytes(&bytes, &path.value, &name.value, &ro)
+                .map_err(|e| e.at_if_none(path.span))?
+        };
         let mut changes = Vec::new();
         if let Some(prev) = previous {
             if !content_same {

@@ -73,7 +73,11 @@ fn saves_tables_and_figures_atomically_and_refuses_bad_targets() {
     )
     .unwrap_err();
     assert_eq!(e.kind, ErrorKind::InputError);
-    assert!(e.message.contains(".csv (a table), .svg or .png"), "{}", e.message);
+    assert!(
+        e.message.contains(".csv (a table), .svg or .png"),
+        "{}",
+        e.message
+    );
     let e = run(
         &mut s,
         &format!(

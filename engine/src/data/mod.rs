@@ -9,6 +9,7 @@ pub mod changes;
 pub mod csv;
 pub mod decimal;
 pub mod reshape;
+pub mod sheet;
 
 /// Marker code for a missing factor value.
 pub const MISSING: u32 = u32::MAX;
