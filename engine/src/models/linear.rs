@@ -170,6 +170,24 @@ pub fn kron_all(parts: &[DMatrix<f64>]) -> DMatrix<f64> {
     acc
 }
 
+/// The orthonormal contrast matrix M_E (C × d_E) of within effect `e` over within factors with
+/// `sizes` levels: Helmert contrasts for the factors in `e`, the normalised mean for the others
+/// (formula (1) of [`super::repeated`]).
+pub fn within_contrasts(sizes: &[usize], e: &[usize]) -> DMatrix<f64> {
+    let parts: Vec<DMatrix<f64>> = sizes
+        .iter()
+        .enumerate()
+        .map(|(f, &k)| {
+            if e.contains(&f) {
+                helmert(k)
+            } else {
+                DMatrix::from_element(k, 1, 1.0 / (k as f64).sqrt())
+            }
+        })
+        .collect();
+    kron_all(&parts)
+}
+
 fn coding(sizes: &[usize], term: &[usize]) -> DMatrix<f64> {
     let parts: Vec<DMatrix<f64>> = sizes
         .iter()

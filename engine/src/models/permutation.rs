@@ -25,7 +25,7 @@
 //! time from two generators of the block so that their dependency chains overlap. Memory is flat: the null
 //! is kept as a fixed histogram.
 
-use super::linear::{SsType, helmert, hypothesis_form, kron_all, reduced_fit, term_df};
+use super::linear::{SsType, hypothesis_form, reduced_fit, term_df, within_contrasts};
 use crate::Cancel;
 use nalgebra::DMatrix;
 use rand::{Rng, SeedableRng};
@@ -184,18 +184,7 @@ impl WithinTest {
         g: &[usize],
         ty: SsType,
     ) -> Option<WithinTest> {
-        let parts: Vec<DMatrix<f64>> = wsizes
-            .iter()
-            .enumerate()
-            .map(|(f, &k)| {
-                if e.contains(&f) {
-                    helmert(k)
-                } else {
-                    DMatrix::from_element(k, 1, 1.0 / (k as f64).sqrt())
-                }
-            })
-            .collect();
-        let m = kron_all(&parts);
+        let m = within_contrasts(wsizes, e);
         let g_cells: usize = bsizes.iter().product::<usize>().max(1);
         let mut counts = vec![0.0; g_cells];
         for &c in group {

@@ -45,7 +45,7 @@
 //! The default correction rule (`auto`): Greenhouse–Geisser when ε_GG < 0.75, otherwise
 //! Huynh–Feldt — the recommendation of Huynh & Feldt (1976), common practice.
 
-use super::linear::{CellStats, SsType, helmert, hypothesis, kron_all, term_df, terms};
+use super::linear::{CellStats, SsType, hypothesis, term_df, terms, within_contrasts};
 use crate::dist::{chi2_sf, f_sf};
 use crate::error::CellError;
 use crate::render::fmt::es;
@@ -287,18 +287,7 @@ pub fn fit(data: &RmData, ty: SsType, correction: Correction) -> Result<Rm, Cell
     let mut strata = Vec::new();
     let mut applied: Vec<String> = Vec::new();
     for e in terms(data.within.len()) {
-        let parts: Vec<DMatrix<f64>> = wsizes
-            .iter()
-            .enumerate()
-            .map(|(f, &k)| {
-                if e.contains(&f) {
-                    helmert(k)
-                } else {
-                    DMatrix::from_element(k, 1, 1.0 / (k as f64).sqrt())
-                }
-            })
-            .collect();
-        let m = kron_all(&parts); // (1)
+        let m = within_contrasts(&wsizes, &e); // (1)
         let z = &data.y * m;
         let d = z.ncols() as f64;
         let stats = CellStats::from_units(&bsizes, &data.group, &z);
