@@ -60,15 +60,7 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
     }
     let plan = resolve(a, ds)?;
     let mut notes = plan.notes.clone();
-    if !named {
-        notes.insert(
-            0,
-            format!(
-                "dataset {} (the one read most recently); name another with `in NAME`",
-                ds.name
-            ),
-        );
-    }
+    notes.splice(0..0, implicit_dataset_note(ds, named));
     if a.verb == Verb::Check || residual_figure {
         return crate::checks::run(a, ds, plan, notes);
     }
@@ -414,6 +406,16 @@ fn cells_of(plan: &Plan<'_>, level: f64) -> Cells {
 }
 
 use crate::render::svg::MAX_DRAWN;
+
+/// The note saying which dataset was used when the statement named none.
+pub(crate) fn implicit_dataset_note(ds: &Dataset, named: bool) -> Option<String> {
+    (!named).then(|| {
+        format!(
+            "dataset {} (the one read most recently); name another with `in NAME`",
+            ds.name
+        )
+    })
+}
 
 /// A confidence level as a percentage ("95").
 pub(crate) fn pct(level: f64) -> String {

@@ -90,9 +90,7 @@ fn residuals(a: &Analysis, plan: &Plan<'_>) -> Result<Residuals, CellError> {
         .map(|f| f.levels.len())
         .product::<usize>()
         .max(1);
-    let subj_mean: Vec<f64> = (0..n)
-        .map(|s| (0..c).map(|j| sd.y[(s, j)]).sum::<f64>() / c as f64)
-        .collect();
+    let subj_mean = sd.subject_means();
     let mut cell_sum = vec![0.0; g_cells * c];
     let mut gcount = vec![0.0f64; g_cells];
     for s in 0..n {

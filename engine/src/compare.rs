@@ -33,6 +33,30 @@ struct Family {
     df_e: f64,
 }
 
+impl Family {
+    fn new(
+        by: Option<(String, String)>,
+        levels: &[String],
+        values: Vec<Vec<f64>>,
+        paired: Option<Vec<Vec<f64>>>,
+        mse: f64,
+        df_e: f64,
+    ) -> Family {
+        Family {
+            by,
+            groups: levels
+                .iter()
+                .zip(&values)
+                .map(|(l, v)| stat_of(l, v))
+                .collect(),
+            values,
+            paired,
+            mse,
+            df_e,
+        }
+    }
+}
+
 fn stat_of(name: &str, vals: &[f64]) -> GroupStat {
     let m = mean(vals);
     let n = vals.len() as f64;
@@ -147,15 +171,7 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
     }
     let plan = resolve(&resolved, ds)?;
     let mut notes = plan.notes.clone();
-    if !named {
-        notes.insert(
-            0,
-            format!(
-                "dataset {} (the one read most recently); name another with `in NAME`",
-                ds.name
-            ),
-        );
-    }
+    notes.splice(0..0, crate::analysis::implicit_dataset_note(ds, named));
     let fname = plan.factors[0].name.clone();
     let flabel = plan.factors[0].display_name().to_string();
     let y_label = plan.response.display_name().to_string();
@@ -176,26 +192,18 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
             let values: Vec<Vec<f64>> = (0..f.levels.len())
                 .map(|j| cols.iter().map(|r| r[j]).collect())
                 .collect();
-            families.push(Family {
-                by: None,
-                groups: f
-                    .levels
-                    .iter()
-                    .zip(&values)
-                    .map(|(l, v)| stat_of(l, v))
-                    .collect(),
+            families.push(Family::new(
+                None,
+                &f.levels,
                 values,
-                paired: Some(cols),
-                mse: f64::NAN,
-                df_e: sd.ids.len() as f64 - 1.0,
-            });
+                Some(cols),
+                f64::NAN,
+                sd.ids.len() as f64 - 1.0,
+            ));
             notes.push(format!("{fname} changes within subjects: each pair of levels is compared by a paired t test on the {} subjects' differences", sd.ids.len()));
         } else {
             let f = &sd.between[0];
-            let c = sd.n_within_cells() as f64;
-            let subj: Vec<f64> = (0..sd.ids.len())
-                .map(|s| (0..sd.n_within_cells()).map(|j| sd.y[(s, j)]).sum::<f64>() / c)
-                .collect();
+            let subj = sd.subject_means();
             let values: Vec<Vec<f64>> = (0..f.levels.len())
                 .map(|g| {
                     (0..sd.ids.len())
@@ -205,19 +213,7 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
                 })
                 .collect();
             let (mse, df_e) = pooled(&values);
-            families.push(Family {
-                by: None,
-                groups: f
-                    .levels
-                    .iter()
-                    .zip(&values)
-                    .map(|(l, v)| stat_of(l, v))
-                    .collect(),
-                values,
-                paired: None,
-                mse,
-                df_e,
-            });
+            families.push(Family::new(None, &f.levels, values, None, mse, df_e));
             notes.push(format!("{fname} is constant within subjects: the levels are compared on each subject's mean, with the error pooled between subjects"));
         }
     } else {
@@ -227,34 +223,26 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
         let (mse, df_e) = pooled(&groups);
         let k = lay.sizes[0];
         if lay.sizes.len() == 1 {
-            families.push(Family {
-                by: None,
-                groups: lay.levels[0]
-                    .iter()
-                    .zip(&groups)
-                    .map(|(l, v)| stat_of(l, v))
-                    .collect(),
-                values: groups.clone(),
-                paired: None,
+            families.push(Family::new(
+                None,
+                &lay.levels[0],
+                groups.clone(),
+                None,
                 mse,
                 df_e,
-            });
+            ));
         } else {
             let nb = lay.sizes[1];
             for b in 0..nb {
                 let vals: Vec<Vec<f64>> = (0..k).map(|i| groups[i * nb + b].clone()).collect();
-                families.push(Family {
-                    by: Some((lay.names[1].clone(), lay.levels[1][b].clone())),
-                    groups: lay.levels[0]
-                        .iter()
-                        .zip(&vals)
-                        .map(|(l, v)| stat_of(l, v))
-                        .collect(),
-                    values: vals,
-                    paired: None,
+                families.push(Family::new(
+                    Some((lay.names[1].clone(), lay.levels[1][b].clone())),
+                    &lay.levels[0],
+                    vals,
+                    None,
                     mse,
                     df_e,
-                });
+                ));
             }
             notes.push(format!(
                 "simple effects: {fname} is compared within each level of {}, each level a family of its own, with the error pooled over the full {} × {} model ({} df)",

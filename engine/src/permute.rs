@@ -156,15 +156,7 @@ pub(crate) fn run(
     let seed = seed.unwrap_or_else(drawn_seed);
     let plan = resolve(a, ds)?;
     let mut notes = plan.notes.clone();
-    if !named {
-        notes.insert(
-            0,
-            format!(
-                "dataset {} (the one read most recently); name another with `in NAME`",
-                ds.name
-            ),
-        );
-    }
+    notes.splice(0..0, crate::analysis::implicit_dataset_note(ds, named));
     let mut provenance = provenance_of(ds, &plan);
     let mut tests: Vec<(String, Test, String)> = Vec::new();
     if plan.subject.is_some() {
@@ -176,10 +168,9 @@ pub(crate) fn run(
         let wsizes: Vec<usize> = sd.within.iter().map(|f| f.levels.len()).collect();
         let bnames: Vec<String> = sd.between.iter().map(|f| f.name.clone()).collect();
         let wnames: Vec<String> = sd.within.iter().map(|f| f.name.clone()).collect();
+        // Subject totals scaled by 1/√C, the between stratum's scores (any scale gives the same F).
         let c = sd.n_within_cells() as f64;
-        let totals: Vec<f64> = (0..sd.ids.len())
-            .map(|s| (0..sd.n_within_cells()).map(|j| sd.y[(s, j)]).sum::<f64>() / c.sqrt())
-            .collect();
+        let totals: Vec<f64> = sd.subject_means().iter().map(|m| m * c.sqrt()).collect();
         for g in terms(bsizes.len()).into_iter().skip(1) {
             let t = BetweenTest::new(&bsizes, &sd.group, &totals, &g, ss)
                 .ok_or_else(|| CellError::design("the between-subjects design is singular"))?;

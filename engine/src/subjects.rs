@@ -70,6 +70,13 @@ impl SubjectDesign {
     pub fn between_levels(&self, g: usize) -> Vec<&str> {
         decode(g, &self.between)
     }
+    /// Each subject's mean over its within cells (shifted like `y`).
+    pub fn subject_means(&self) -> Vec<f64> {
+        let c = self.n_within_cells();
+        (0..self.ids.len())
+            .map(|s| (0..c).map(|j| self.y[(s, j)]).sum::<f64>() / c as f64)
+            .collect()
+    }
     /// The input of the repeated-measures model.
     pub fn rm_data(&self) -> crate::models::repeated::RmData {
         let sizes = |fs: &[FactorUse]| {

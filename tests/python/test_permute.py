@@ -12,6 +12,7 @@ import numpy as np
 import pandas as pd
 import pytest
 from scipy import stats
+from statsmodels.stats.proportion import proportion_confint
 
 from conftest import bundle_of, execute
 
@@ -112,6 +113,11 @@ def test_monte_carlo_p_matches_scipy_permutation_test(kernel, tmp_path, seed):
     se = math.sqrt(2 * p * (1 - p) / m) + 1 / m
     assert abs(r["p"] - ref.pvalue) <= 4 * se, (r["p"], ref.pvalue, se)
     assert r["p_ci_low"] <= r["p"] <= r["p_ci_high"]
+    # The 99% interval is Wilson's score interval for b/m: statsmodels proportion_confint.
+    b = round(r["p"] * (m + 1) - 1)
+    lo, hi = proportion_confint(b, m, alpha=0.01, method="wilson")
+    assert r["p_ci_low"] == pytest.approx(lo, rel=1e-9, abs=1e-15)
+    assert r["p_ci_high"] == pytest.approx(hi, rel=1e-9)
 
 
 def test_normal_data_agree_with_the_f_distribution(kernel, tmp_path):
