@@ -80,6 +80,20 @@ impl Interpreter for EngineInterpreter {
         }
     }
 
+    fn watched(&self) -> Vec<std::path::PathBuf> {
+        self.session.watched_files()
+    }
+
+    fn refresh(
+        &mut self,
+        path: &std::path::Path,
+        interrupt: &Arc<AtomicBool>,
+        out: &mut dyn FnMut(DisplayOut),
+    ) {
+        let cancel = Cancel::from_flag(interrupt.clone());
+        self.session.refresh(path, &cancel, &mut Forward(out));
+    }
+
     fn language_info(&self) -> LanguageInfo {
         LanguageInfo {
             name: "partita".into(),

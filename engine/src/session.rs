@@ -14,6 +14,8 @@ use serde_json::{Value as Json, json};
 use std::collections::BTreeMap;
 use std::path::PathBuf;
 
+mod live;
+
 /// Completion candidates for the text before the cursor.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Completion {
@@ -46,6 +48,8 @@ pub struct Session {
     history: BTreeMap<(String, String), (String, String)>,
     /// The last answer with tables or a figure (for `save LAST`).
     last: Option<Answer>,
+    /// Watched datasets and the statements that follow them.
+    live: live::Live,
 }
 
 impl Session {
@@ -81,10 +85,12 @@ impl Session {
             if cancel.is_cancelled() {
                 return Err(CellError::interrupted());
             }
+            let text = &src[st.span.start..st.span.end];
+            let used = self.statement_dataset(&st.kind);
             let answer = self
                 .run_statement(&st.kind, st.span, cancel, &mut *sink)
                 .map_err(|e| e.at_if_none(st.span))?;
-            let answer = answer.map(|a| self.was_now(a, &src[st.span.start..st.span.end]));
+            let answer = answer.map(|a| self.was_now(a, text));
             if let Some(a) = &answer {
                 if !matches!(st.kind, StmtKind::Save { .. })
                     && (!a.tables.is_empty() || a.figure.is_some())
@@ -92,8 +98,15 @@ impl Session {
                     self.last = Some(a.clone());
                 }
             }
+            let live = self.bind_live(&st.kind, used.as_deref());
             if let Some(a) = answer {
-                sink.display(Output::answer(a.mime_bundle(), i == last));
+                let mut out = Output::answer(a.mime_bundle(), i == last);
+                if let (true, Some(u)) = (live, used.as_deref()) {
+                    // A live answer is a display (with an id), so that refreshes replace it.
+                    out.display_id = Some(self.record_live(&st.kind, text, u, &a));
+                    out.is_result = false;
+                }
+                sink.display(out);
             }
         }
         Ok(())
@@ -144,7 +157,11 @@ impl Session {
                 new,
             } => {
                 let (ds, _) = self.dataset(Some(source))?;
-                let long = crate::data::reshape::unpivot(ds, columns, factor, value, &new.value)?;
+                let mut long =
+                    crate::data::reshape::unpivot(ds, columns, factor, value, &new.value)?;
+                if let Some(prev) = self.datasets.get(&new.value) {
+                    crate::data::changes::carry_over(prev, &mut long);
+                }
                 let (rows, k) = (ds.n_rows(), columns.len());
                 self.datasets.insert(new.value.clone(), long);
                 self.current = Some(new.value.clone());
@@ -276,6 +293,7 @@ impl Session {
                 "decimal",
                 "header",
                 "sheet",
+                "watch",
             ],
         )?;
         let mut ro = ReadOptions::new();
@@ -323,6 +341,12 @@ impl Session {
                         .at(o.span));
                     }
                     ro.header = n as usize;
+                }
+                "watch" if !o.values.is_empty() => {
+                    return Err(CellError::input(
+                        "`watch` takes no value: `with watch` follows the file and refreshes the results that use it",
+                    )
+                    .at(o.span));
                 }
                 _ => {}
             }
@@ -373,6 +397,7 @@ impl Session {
                 return Ok(a);
             }
         }
+        let mut tail_note = None;
         let mut ds = if spreadsheet {
             let wanted = match sheet_opt {
                 Some(o) => Some((one_text(o)?, o.span)),
@@ -394,8 +419,11 @@ impl Session {
             ds.source = format!("{} (sheet \"{sheet}\")", path.value);
             ds
         } else {
-            parse_bytes(&bytes, &path.value, &name.value, &ro)
-                .map_err(|e| e.at_if_none(path.span))?
+            let (ds, tail) = self
+                .parse_text(&bytes, &path.value, &name.value, &ro)
+                .map_err(|e| e.at_if_none(path.span))?;
+            tail_note = tail;
+            ds
         };
         let mut changes = Vec::new();
         if let Some(prev) = previous {
@@ -417,10 +445,49 @@ impl Session {
                 answer.notes.insert(i, l);
             }
         }
+        if let Some(t) = tail_note {
+            answer.notes.push(t);
+        }
         self.current = Some(name.value.clone());
         self.origins.insert(name.value.clone(), (full, how));
         self.datasets.insert(name.value.clone(), ds);
         Ok(answer)
+    }
+
+    /// Parses delimited text. A file whose last line has no line end and does not parse is
+    /// being written: during a refresh that line is left out (with a note); otherwise the
+    /// error says to read the file again when it is complete.
+    fn parse_text(
+        &self,
+        bytes: &[u8],
+        shown: &str,
+        name: &str,
+        ro: &ReadOptions,
+    ) -> Result<(Dataset, Option<String>), CellError> {
+        let err = match parse_bytes(bytes, shown, name, ro) {
+            Ok(ds) => return Ok((ds, None)),
+            Err(e) => e,
+        };
+        let cut = match bytes.iter().rposition(|&b| b == b'\n') {
+            Some(c) if !bytes.ends_with(b"\n") => c,
+            _ => return Err(err),
+        };
+        let Ok(ds) = parse_bytes(&bytes[..=cut], shown, name, ro) else {
+            return Err(err);
+        };
+        let line = bytes[..=cut].iter().filter(|&&b| b == b'\n').count() + 1;
+        if self.live.partial_tail {
+            Ok((
+                ds,
+                Some(format!(
+                    "line {line} has no line end yet (the file is still being written?): it is left out until it is complete"
+                )),
+            ))
+        } else {
+            Err(err.note(format!(
+                "line {line}, the last, has no line end: if the file is still being written, read it again when it is complete"
+            )))
+        }
     }
 
     fn show(&self, name: &Name, options: &[Opt]) -> Result<Answer, CellError> {

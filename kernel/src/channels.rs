@@ -11,6 +11,7 @@ use crate::connection::ConnectionInfo;
 use crate::dispatch::{Channel, Control, Dispatcher, Flow, Transport, decode_or_log, is_execute};
 use crate::interp::Interpreter;
 use crate::message::Replier;
+use crate::watch::{Debounce, FileWatch, QUIET};
 use crate::wire::{Message, Signer};
 use bytes::Bytes;
 use std::sync::Arc;
@@ -171,14 +172,16 @@ async fn run(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), S
         }
     }
 
-    // Shell requests, one at a time, on a thread of their own.
-    let (work_tx, work_rx) = std::sync::mpsc::channel::<(std::time::Instant, Frames)>();
+    // Shell requests, one at a time, on a thread of their own; file changes arrive on the
+    // same queue, so refreshes run between requests.
+    let (work_tx, work_rx) = std::sync::mpsc::channel::<Work>();
     {
         let signer = signer.clone();
         let exit_tx = exit_tx.clone();
+        let changes = work_tx.clone();
         std::thread::Builder::new()
             .name("partita-shell".into())
-            .spawn(move || shell_loop(dispatcher, signer, work_rx, exit_tx))
+            .spawn(move || shell_loop(dispatcher, signer, work_rx, changes, exit_tx))
             .map_err(|e| format!("cannot start the shell thread: {e}"))?;
     }
     tokio::spawn(async move {
@@ -186,7 +189,7 @@ async fn run(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), S
             match shell_recv.recv().await {
                 Ok(m) => {
                     if work_tx
-                        .send((std::time::Instant::now(), from_zmq(m)))
+                        .send(Work::Request(std::time::Instant::now(), from_zmq(m)))
                         .is_err()
                     {
                         break;
@@ -225,31 +228,75 @@ async fn run(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), S
     Ok(())
 }
 
+/// What the shell thread is given to do.
+enum Work {
+    /// A shell request, with the time it arrived.
+    Request(std::time::Instant, Frames),
+    /// A watched file changed.
+    Changed(std::path::PathBuf),
+}
+
 fn shell_loop<T: Transport>(
     mut d: Dispatcher<T>,
     signer: Signer,
-    rx: std::sync::mpsc::Receiver<(std::time::Instant, Frames)>,
+    rx: std::sync::mpsc::Receiver<Work>,
+    changes: std::sync::mpsc::Sender<Work>,
     exit_tx: UnboundedSender<()>,
 ) {
+    use std::sync::mpsc::RecvTimeoutError;
     // Execute requests that arrived before this instant are aborted (stop_on_error).
     let mut abort_before: Option<std::time::Instant> = None;
-    while let Ok((arrived, frames)) = rx.recv() {
-        let Some(m) = decode_or_log(&signer, &frames, "shell") else {
-            continue;
+    let mut debounce = Debounce::new(QUIET);
+    let mut watch: Option<FileWatch> = None;
+    let mut watched: Vec<std::path::PathBuf> = Vec::new();
+    loop {
+        let work = match debounce.timeout() {
+            None => rx.recv().map_err(|_| RecvTimeoutError::Disconnected),
+            Some(t) => rx.recv_timeout(t),
         };
-        if is_execute(&m) && abort_before.is_some_and(|t| arrived < t) {
-            d.abort(Channel::Shell, &m);
-            continue;
+        match work {
+            Ok(Work::Request(arrived, frames)) => {
+                let Some(m) = decode_or_log(&signer, &frames, "shell") else {
+                    continue;
+                };
+                if is_execute(&m) && abort_before.is_some_and(|t| arrived < t) {
+                    d.abort(Channel::Shell, &m);
+                    continue;
+                }
+                if abort_before.is_some_and(|t| arrived >= t) {
+                    abort_before = None;
+                }
+                if d.handle(Channel::Shell, &m) == Flow::Shutdown {
+                    let _ = exit_tx.send(());
+                    return;
+                }
+                if d.take_failed() {
+                    abort_before = Some(d.replied_at());
+                }
+                let now = d.watched();
+                if now != watched {
+                    if watch.is_none() && !now.is_empty() {
+                        let tx = changes.clone();
+                        watch = FileWatch::new(move |p| {
+                            let _ = tx.send(Work::Changed(p));
+                        })
+                        .map_err(|e| eprintln!("partita: {e}"))
+                        .ok();
+                    }
+                    if let Some(w) = watch.as_mut() {
+                        w.set(&now);
+                    }
+                    watched = now;
+                }
+            }
+            Ok(Work::Changed(p)) => debounce.touched(p),
+            Err(RecvTimeoutError::Timeout) => {}
+            Err(RecvTimeoutError::Disconnected) => return,
         }
-        if abort_before.is_some_and(|t| arrived >= t) {
-            abort_before = None;
-        }
-        if d.handle(Channel::Shell, &m) == Flow::Shutdown {
-            let _ = exit_tx.send(());
-            return;
-        }
-        if d.take_failed() {
-            abort_before = Some(d.replied_at());
+        for p in debounce.due() {
+            if watched.contains(&p) {
+                d.refresh(&p);
+            }
         }
     }
 }

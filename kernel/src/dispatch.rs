@@ -49,6 +49,9 @@ pub struct Dispatcher<T: Transport> {
     execution_count: u64,
     failed: bool,
     replied_at: std::time::Instant,
+    /// The execute_request (header only) under which each display id was first sent: a
+    /// refresh's updates carry it as their parent, so front ends route them to the cell.
+    parents: std::collections::HashMap<String, Message>,
 }
 
 fn status(ok: bool) -> &'static str {
@@ -89,6 +92,7 @@ impl<T: Transport> Dispatcher<T> {
             execution_count: 0,
             failed: false,
             replied_at: std::time::Instant::now(),
+            parents: std::collections::HashMap::new(),
         }
     }
 
@@ -210,9 +214,13 @@ impl<T: Transport> Dispatcher<T> {
         let interrupt = self.interrupt.clone();
         let replier = self.replier.clone();
         let transport = &self.transport;
+        let parents = &mut self.parents;
         let mut sink = |d: DisplayOut| {
             if silent {
                 return;
+            }
+            if let (Some(id), false) = (&d.display_id, d.update) {
+                parents.insert(id.clone(), header_only(m));
             }
             let transient = match &d.display_id {
                 Some(id) => json!({"display_id": id}),
@@ -257,6 +265,56 @@ impl<T: Transport> Dispatcher<T> {
                     "evalue": err.evalue, "traceback": err.traceback})
             }
         }
+    }
+}
+
+impl<T: Transport> Dispatcher<T> {
+    /// Files the interpreter wants watched.
+    pub fn watched(&self) -> Vec<std::path::PathBuf> {
+        self.interp.watched()
+    }
+
+    /// Lets the interpreter refresh its displays after `path` changed. Each update is sent as
+    /// update_display_data under the execute_request that created its display; an update for
+    /// a display this kernel never sent is dropped. A panic is logged, never fatal.
+    pub fn refresh(&mut self, path: &std::path::Path) {
+        self.interrupt.store(false, Ordering::SeqCst);
+        let interrupt = self.interrupt.clone();
+        let (replier, transport, parents) = (&self.replier, &self.transport, &self.parents);
+        let mut sink = |d: DisplayOut| {
+            let Some(parent) = d.display_id.as_ref().and_then(|id| parents.get(id)) else {
+                return;
+            };
+            let c = json!({"data": d.data, "metadata": d.metadata,
+                "transient": {"display_id": d.display_id}});
+            transport.send(
+                Channel::IoPub,
+                replier.broadcast(Some(parent), "update_display_data", c),
+            );
+        };
+        let interp = &mut self.interp;
+        if catch_unwind(AssertUnwindSafe(|| {
+            interp.refresh(path, &interrupt, &mut sink)
+        }))
+        .is_err()
+        {
+            eprintln!(
+                "partita: internal error while refreshing after {} changed; the kernel is still running",
+                path.display()
+            );
+        }
+    }
+}
+
+/// A copy of `m` with only what a parent header needs.
+fn header_only(m: &Message) -> Message {
+    Message {
+        identities: Vec::new(),
+        header: m.header.clone(),
+        parent_header: serde_json::Map::new(),
+        metadata: serde_json::Map::new(),
+        content: Value::Null,
+        buffers: Vec::new(),
     }
 }
 
@@ -314,6 +372,18 @@ mod tests {
                     traceback: vec!["bad".into()],
                 }),
                 "panic" => panic!("boom"),
+                "live" => {
+                    let mut data = Map::new();
+                    data.insert("text/plain".into(), Value::String("old".into()));
+                    out(DisplayOut {
+                        data,
+                        metadata: Map::new(),
+                        is_result: false,
+                        display_id: Some("L1".into()),
+                        update: false,
+                    });
+                    Ok(())
+                }
                 "progress" => {
                     let text = |t: &str| {
                         let mut d = Map::new();
@@ -357,6 +427,27 @@ mod tests {
         }
         fn is_complete(&mut self, _: &str) -> Completeness {
             Completeness::Complete
+        }
+        fn refresh(
+            &mut self,
+            path: &std::path::Path,
+            _: &Arc<AtomicBool>,
+            out: &mut dyn FnMut(DisplayOut),
+        ) {
+            if path.ends_with("panic.csv") {
+                panic!("boom");
+            }
+            for id in ["L1", "never-sent"] {
+                let mut data = Map::new();
+                data.insert("text/plain".into(), Value::String("new".into()));
+                out(DisplayOut {
+                    data,
+                    metadata: Map::new(),
+                    is_result: false,
+                    display_id: Some(id.into()),
+                    update: true,
+                });
+            }
         }
         fn language_info(&self) -> LanguageInfo {
             LanguageInfo {
@@ -491,6 +582,30 @@ mod tests {
             assert_eq!(m.content["transient"]["display_id"], "p1");
         }
         assert_eq!(v[3].1.content["data"]["text/plain"], "50%");
+    }
+
+    #[test]
+    fn refresh_updates_go_under_the_request_that_created_the_display() {
+        let (mem, mut d) = dispatcher();
+        let mut first = request("execute_request", json!({"code": "live"}));
+        first.header.insert("msg_id".into(), json!("creator"));
+        d.handle(Channel::Shell, &first);
+        let mut other = request("execute_request", json!({"code": "x"}));
+        other.header.insert("msg_id".into(), json!("later"));
+        d.handle(Channel::Shell, &other);
+        mem.0.lock().unwrap().clear();
+        d.refresh(std::path::Path::new("/data/a.csv"));
+        let v = mem.0.lock().unwrap().clone();
+        // One update (the id never sent is dropped), with no busy/idle of its own.
+        assert_eq!(types(&v), ["update_display_data"]);
+        let m = &v[0].1;
+        assert_eq!(v[0].0, Channel::IoPub);
+        assert_eq!(m.parent_header["msg_id"], "creator");
+        assert_eq!(m.content["transient"]["display_id"], "L1");
+        assert_eq!(m.content["data"]["text/plain"], "new");
+        // A panicking refresh is contained.
+        d.refresh(std::path::Path::new("/data/panic.csv"));
+        d.handle(Channel::Shell, &other);
     }
 
     #[test]

@@ -1,6 +1,7 @@
 //! The hooks the kernel calls: the whole of what it knows about the language.
 
 use serde_json::{Map, Value};
+use std::path::{Path, PathBuf};
 use std::sync::Arc;
 use std::sync::atomic::AtomicBool;
 
@@ -89,4 +90,17 @@ pub trait Interpreter: Send {
     fn is_complete(&mut self, code: &str) -> Completeness;
     /// Facts for kernel_info.
     fn language_info(&self) -> LanguageInfo;
+    /// Files whose changes should be reported to [`Interpreter::refresh`] (absolute paths).
+    fn watched(&self) -> Vec<PathBuf> {
+        Vec::new()
+    }
+    /// Called between requests when a watched file changed and has been quiet: updates of
+    /// earlier displays go to `out` (each with the `display_id` it was first sent with).
+    fn refresh(
+        &mut self,
+        _path: &Path,
+        _interrupt: &Arc<AtomicBool>,
+        _out: &mut dyn FnMut(DisplayOut),
+    ) {
+    }
 }

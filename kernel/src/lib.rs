@@ -2,8 +2,9 @@
 //!
 //! [`wire`] converts frames to messages and signs and verifies them (no I/O); [`message`]
 //! decodes content by type and builds replies; [`dispatch`] maps requests to handlers behind
-//! a [`dispatch::Transport`] trait; [`channels`] owns the sockets and threads. The language is
-//! reached only through the [`interp::Interpreter`] hooks.
+//! a [`dispatch::Transport`] trait; [`channels`] owns the sockets and threads; [`watch`] follows
+//! data files for live refresh. The language is reached only through the
+//! [`interp::Interpreter`] hooks.
 //!
 //! ```
 //! let s = kernel::wire::Signer::new("key");
@@ -16,6 +17,7 @@ pub mod connection;
 pub mod dispatch;
 pub mod interp;
 pub mod message;
+pub mod watch;
 pub mod wire;
 
 pub use channels::serve;

@@ -14,13 +14,18 @@ const STYLE: &str = "<style>.partita-result{font-family:system-ui,sans-serif;fon
 .partita-result tr:last-child td{border-bottom:1px solid #999}\
 .partita-report{font-size:14px;margin:6px 0}\
 .partita-notes{margin:4px 0;padding-left:18px;color:#444}\
-.partita-small{color:#666;font-size:11px;margin:2px 0}</style>";
+.partita-small{color:#666;font-size:11px;margin:2px 0}\
+.partita-refresh{border-left:3px solid #2a7d4f;padding:2px 8px;margin:4px 0;background:#f1f8f4}\
+.partita-refresh.stale{border-left-color:#b3261e;background:#fff3f0}</style>";
 
 /// The answer as an HTML fragment.
 pub fn render(a: &Answer) -> String {
     let m: Markup = html! {
         (PreEscaped(STYLE))
         div class="partita-result" {
+            @if let Some(r) = &a.refresh {
+                p class=(if r.ok { "partita-refresh" } else { "partita-refresh stale" }) { (r.text) }
+            }
             @if !a.title.is_empty() { p { strong { (a.title) } } }
             @if let Some(p) = &a.plain { @if a.tables.is_empty() && a.title.is_empty() { pre { (p) } } }
             @for t in &a.tables { (table(t)) }

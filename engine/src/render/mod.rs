@@ -80,6 +80,26 @@ pub struct Answer {
     pub plain: Option<String>,
     /// Whether to attach the JSON bundle.
     pub with_bundle: bool,
+    /// Set on an answer refreshed because its watched data file changed.
+    pub refresh: Option<Refresh>,
+}
+
+/// The banner of a refreshed answer.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Refresh {
+    /// When (RFC 3339, UTC).
+    pub at: String,
+    /// The file, as the `read` named it.
+    pub source: String,
+    /// Rows now.
+    pub rows: usize,
+    /// Rows at the previous read.
+    pub previous_rows: usize,
+    /// False when the file could not be read or the statement failed on it: the answer is
+    /// the last good one.
+    pub ok: bool,
+    /// The banner sentence.
+    pub text: String,
 }
 
 impl Answer {
@@ -93,6 +113,12 @@ impl Answer {
             "report": self.report,
             "notes": self.notes,
         });
+        if let Some(r) = &self.refresh {
+            b["refresh"] = json!({
+                "at": r.at, "source": r.source, "rows": r.rows,
+                "previous_rows": r.previous_rows, "ok": r.ok, "text": r.text,
+            });
+        }
         if let Some(p) = &self.provenance {
             b["provenance"] = json!({
                 "dataset": p.dataset, "source": p.source, "sha256": p.sha256,

@@ -4,10 +4,14 @@ use super::{Align, Answer, DisplayTable};
 
 /// The answer as plain text.
 pub fn render(a: &Answer) -> String {
-    if let Some(p) = &a.plain {
-        return p.clone();
-    }
     let mut out = String::new();
+    if let Some(r) = &a.refresh {
+        out.push_str(&format!("[{}]\n", r.text));
+    }
+    if let Some(p) = &a.plain {
+        out.push_str(p);
+        return out;
+    }
     if !a.title.is_empty() {
         out.push_str(&a.title);
         out.push('\n');
