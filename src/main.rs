@@ -52,6 +52,10 @@ enum Command {
         /// Go on after a failing cell (the error is kept in the outputs).
         #[arg(long = "keep-going")]
         keep_going: bool,
+        /// Keep running: whenever a data file the notebook reads (or the notebook itself)
+        /// changes, run it again and rewrite the outputs. Stop with Ctrl-C.
+        #[arg(long)]
+        watch: bool,
     },
 }
 
@@ -90,6 +94,7 @@ fn real_main() -> Result<()> {
             output,
             html,
             keep_going,
+            watch,
         } => {
             let html = match (&output, html) {
                 (None, None) => {
@@ -101,15 +106,11 @@ fn real_main() -> Result<()> {
                 }
                 (_, h) => h,
             };
+            if watch {
+                return notebook::watch(&notebook, keep_going, output.as_deref(), html.as_deref());
+            }
             let report = notebook::run(&notebook, keep_going)?;
-            if let Some(o) = &output {
-                notebook::write_atomic(o, report.notebook_json()?.as_bytes())?;
-                println!("wrote {}", o.display());
-            }
-            if let Some(h) = &html {
-                notebook::write_atomic(h, report.html().as_bytes())?;
-                println!("wrote {}", h.display());
-            }
+            notebook::write_outputs(&report, output.as_deref(), html.as_deref())?;
             if let Some((cell, msg)) = &report.failed {
                 bail!("cell {cell} failed: {msg}");
             }

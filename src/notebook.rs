@@ -14,6 +14,10 @@ pub struct Report {
     title: String,
     /// The first failing cell (1-based among all cells) and its message, unless kept going.
     pub failed: Option<(usize, String)>,
+    /// The data files the notebook read (absolute paths).
+    pub inputs: Vec<std::path::PathBuf>,
+    /// A line for the report's footer (when and why it was run).
+    pub stamp: String,
 }
 
 /// Collects a cell's outputs as a notebook would show them: an update replaces the output with
@@ -134,7 +138,112 @@ pub fn run(path: &Path, keep_going: bool) -> Result<Report> {
         nb,
         title,
         failed: if keep_going { None } else { failed },
+        inputs: session.input_files(),
+        stamp: String::new(),
     })
+}
+
+/// Writes the executed notebook and/or the HTML report.
+pub fn write_outputs(report: &Report, output: Option<&Path>, html: Option<&Path>) -> Result<()> {
+    if let Some(o) = output {
+        write_atomic(o, report.notebook_json()?.as_bytes())?;
+        println!("wrote {}", o.display());
+    }
+    if let Some(h) = html {
+        write_atomic(h, report.html().as_bytes())?;
+        println!("wrote {}", h.display());
+    }
+    Ok(())
+}
+
+/// `partita run --watch`: runs the notebook, writes its outputs, then runs it again whenever
+/// one of the data files it read, or the notebook itself, changes (debounced as in the
+/// kernel). A run with a failing cell leaves the last good outputs in place and says so.
+pub fn watch(
+    path: &Path,
+    keep_going: bool,
+    output: Option<&Path>,
+    html: Option<&Path>,
+) -> Result<()> {
+    use kernel::watch::{Debounce, FileWatch, QUIET};
+    use std::sync::mpsc::{RecvTimeoutError, channel};
+    let (tx, rx) = channel::<std::path::PathBuf>();
+    let tx = std::sync::Mutex::new(tx);
+    let mut watcher = FileWatch::new(move |p| {
+        if let Ok(t) = tx.lock() {
+            let _ = t.send(p);
+        }
+    })
+    .map_err(anyhow::Error::msg)?;
+    let nb_abs = std::path::absolute(path).unwrap_or_else(|_| path.to_path_buf());
+    if output.is_some_and(|o| std::path::absolute(o).ok().as_ref() == Some(&nb_abs)) {
+        bail!(
+            "--watch cannot write the executed notebook over {} itself (each write would start another run); give --output another name",
+            path.display()
+        );
+    }
+    let mut followed: Vec<std::path::PathBuf> = vec![nb_abs.clone()];
+    let mut debounce = Debounce::new(QUIET);
+    let mut good_at: Option<String> = None;
+    let mut why = String::from("first run");
+    for run_no in 1.. {
+        let at = chrono::Utc::now().format("%H:%M:%S UTC").to_string();
+        match run(path, keep_going) {
+            Ok(mut report) => {
+                for f in &report.inputs {
+                    if !followed.contains(f) {
+                        followed.push(f.clone());
+                    }
+                }
+                report.stamp = format!("run {run_no} at {at} ({why})");
+                match (&report.failed, &good_at) {
+                    (Some((cell, msg)), Some(good)) => eprintln!(
+                        "partita: run {run_no} failed at cell {cell}: {msg}; the outputs of the run at {good} are kept"
+                    ),
+                    (failed, _) => {
+                        write_outputs(&report, output, html)?;
+                        match failed {
+                            Some((cell, msg)) => eprintln!("partita: cell {cell} failed: {msg}"),
+                            None => good_at = Some(at.clone()),
+                        }
+                    }
+                }
+            }
+            Err(e) => eprintln!("partita: run {run_no} could not start: {e:#}"),
+        }
+        watcher.set(&followed);
+        eprintln!(
+            "partita: watching {} file{} for changes (Ctrl-C stops)",
+            followed.len(),
+            if followed.len() == 1 { "" } else { "s" }
+        );
+        let changed = loop {
+            let got = match debounce.timeout() {
+                None => rx.recv().map_err(|_| RecvTimeoutError::Disconnected),
+                Some(t) => rx.recv_timeout(t),
+            };
+            match got {
+                Ok(p) => debounce.touched(p),
+                Err(RecvTimeoutError::Timeout) => {}
+                Err(RecvTimeoutError::Disconnected) => bail!("the file watcher stopped"),
+            }
+            let due = debounce.due();
+            if !due.is_empty() {
+                break due;
+            }
+        };
+        let names: Vec<String> = changed
+            .iter()
+            .map(|p| {
+                p.file_name()
+                    .map(|n| n.to_string_lossy().into_owned())
+                    .unwrap_or_default()
+            })
+            .collect();
+        why = format!("{} changed", names.join(", "));
+        eprintln!("partita: {why}; running {} again", path.display());
+    }
+    Ok(())
 }
 
 /// Writes through a temporary file and a rename, so a reader never sees half a file.
@@ -171,7 +280,10 @@ impl Report {
                     main {
                         @for c in &cells { (cell_html(c)) }
                     }
-                    footer { "Produced by Partita " (env!("CARGO_PKG_VERSION")) " from " (self.title) ".ipynb" }
+                    footer {
+                        "Produced by Partita " (env!("CARGO_PKG_VERSION")) " from " (self.title) ".ipynb"
+                        @if !self.stamp.is_empty() { " — " (self.stamp) }
+                    }
                 }
             }
         };

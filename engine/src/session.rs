@@ -377,12 +377,14 @@ impl Session {
         let how = format!("{ro:?} sheet {sheet_text:?}");
         let same_file = self.origins.get(&name.value).is_some_and(|o| o.0 == full);
         let same_options = self.origins.get(&name.value).is_some_and(|o| o.1 == how);
-        let previous = self.datasets.get(&name.value).filter(|_| same_file);
+        // The previous contents of this dataset, from this file or another (a new export
+        // under a new name): what changed is said either way.
+        let previous = self.datasets.get(&name.value);
         let content_same = previous.is_some_and(|prev| {
             use sha2::{Digest, Sha256};
             hex::encode(Sha256::digest(&bytes)) == prev.sha256
         });
-        if let Some(prev) = previous.filter(|_| same_options) {
+        if let Some(prev) = previous.filter(|_| same_options && same_file) {
             if content_same {
                 let mut a = read_answer(prev);
                 a.notes.insert(
@@ -394,7 +396,7 @@ impl Session {
                     ),
                 );
                 self.current = Some(name.value.clone());
-                return Ok(a);
+                return Ok(notes_in_plain(a));
             }
         }
         let mut tail_note = None;
@@ -434,12 +436,18 @@ impl Session {
         }
         let mut answer = read_answer(&ds);
         if let Some(prev) = previous.filter(|_| !content_same) {
-            let mut lines = vec![format!(
-                "{} changed since it was read at {}: {}",
-                path.value,
-                prev.read_at,
-                changes.first().cloned().unwrap_or_default()
-            )];
+            let first = changes.first().cloned().unwrap_or_default();
+            let mut lines = vec![if same_file {
+                format!(
+                    "{} changed since it was read at {}: {first}",
+                    path.value, prev.read_at
+                )
+            } else {
+                format!(
+                    "{} was read from {} at {}; now from {}: {first}",
+                    name.value, prev.source, prev.read_at, path.value
+                )
+            }];
             lines.extend(changes.into_iter().skip(1));
             for (i, l) in lines.into_iter().enumerate() {
                 answer.notes.insert(i, l);
@@ -451,7 +459,7 @@ impl Session {
         self.current = Some(name.value.clone());
         self.origins.insert(name.value.clone(), (full, how));
         self.datasets.insert(name.value.clone(), ds);
-        Ok(answer)
+        Ok(notes_in_plain(answer))
     }
 
     /// Parses delimited text. A file whose last line has no line end and does not parse is
@@ -826,6 +834,17 @@ fn read_answer(ds: &Dataset) -> Answer {
         with_bundle: true,
         ..Default::default()
     }
+}
+
+/// A dataset summary shows its notes (what changed, unfinished lines) in the plain text too.
+fn notes_in_plain(mut a: Answer) -> Answer {
+    if let Some(p) = a.plain.as_mut() {
+        for n in &a.notes {
+            p.push_str("\nnote: ");
+            p.push_str(n);
+        }
+    }
+    a
 }
 
 fn short(text: String) -> Answer {

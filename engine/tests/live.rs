@@ -228,3 +228,33 @@ fn watch_takes_no_value() {
     .unwrap_err();
     assert!(e.message.contains("`watch` takes no value"), "{e:?}");
 }
+
+#[test]
+fn a_new_export_under_the_same_name_says_what_changed_and_reruns_show_was_and_now() {
+    let one = file("run1.csv", BASE);
+    let two = file("run2.csv", &format!("{BASE}a,2\nb,6\nc,4\nd,5\n"));
+    let mut s = Session::new();
+    run(&mut s, &format!("read \"{}\" as plates", one.display())).unwrap();
+    run(&mut s, "anova y across g in plates").unwrap();
+    let r = run(&mut s, &format!("read \"{}\" as plates", two.display())).unwrap();
+    let notes = bundle(&r[0])["notes"].clone();
+    let first = notes[0].as_str().unwrap();
+    assert!(
+        first.starts_with(&format!("plates was read from {} at ", one.display())),
+        "{first}"
+    );
+    assert!(
+        first.contains(&format!(
+            "; now from {}: rows: 9 → 13 (4 added",
+            two.display()
+        )),
+        "{first}"
+    );
+    assert!(notes.to_string().contains("g: new level d"), "{notes}");
+    let a = run(&mut s, "anova y across g in plates").unwrap();
+    let was = bundle(&a[0])["notes"][0].as_str().unwrap().to_string();
+    assert!(
+        was.starts_with("was g: F(2, 6)") && was.contains("now g: F(3, 9)"),
+        "{was}"
+    );
+}

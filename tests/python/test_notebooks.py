@@ -20,6 +20,25 @@ def test_tour_executes_in_jupyter_without_error():
     assert not any(o.output_type == "error" for c in codes for o in c.outputs)
     kinds = {k for c in codes for o in c.outputs for k in o.get("data", {})}
     assert {"text/html", "image/svg+xml", "text/markdown", "application/vnd.partita.result+json"} <= kinds
+    # The arriving-batch section: the second export is summarised and the ANOVA rerun on it
+    # shows was → now; both F values against scipy.stats.f_oneway on the files themselves.
+    import csv
+    from scipy import stats
+
+    def f_of(name):
+        groups = {}
+        for r in csv.DictReader(open(TOUR.parent / "data" / name)):
+            groups.setdefault(r["solution"], []).append(float(r["fvfm"]))
+        return stats.f_oneway(*groups.values()).statistic
+
+    bundles = [o["data"]["application/vnd.partita.result+json"] for c in codes for o in c.outputs
+               if "application/vnd.partita.result+json" in o.get("data", {})]
+    plates = [b for b in bundles if b.get("provenance", {}).get("dataset") == "plates"]
+    reads = [b for b in plates if b["command"] == "read"]
+    assert "rows: 24 → 48 (24 added, 0 removed or changed)" in reads[1]["notes"][0]
+    fits = [b for b in plates if b["command"] == "anova"]
+    assert [round(b["tables"]["anova"][0]["f"], 9) for b in fits] == [round(f_of(n), 9) for n in ("plates_run1.csv", "plates_run2.csv")]
+    assert fits[1]["notes"][0].startswith("was solution: F(2, 21) = 7.38") and "now solution: F(2, 45) = 16.94" in fits[1]["notes"][0]
 
 
 def test_partita_run_writes_a_valid_notebook_and_report():

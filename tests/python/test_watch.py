@@ -101,3 +101,67 @@ def test_a_watched_file_refreshes_its_displays_once_under_their_cells(kernel, tm
     reply, _ = execute(kc, "help")
     assert reply["content"]["status"] == "ok"
 
+
+
+def notebook(cells):
+    return {"nbformat": 4, "nbformat_minor": 5, "metadata": {},
+            "cells": [{"cell_type": "code", "id": f"c{i}", "metadata": {}, "execution_count": None,
+                       "outputs": [], "source": c} for i, c in enumerate(cells)]}
+
+
+def wait_for(pred, seconds):
+    end = time.monotonic() + seconds
+    while time.monotonic() < end:
+        v = pred()
+        if v:
+            return v
+        time.sleep(0.1)
+    raise AssertionError("timed out")
+
+
+def test_partita_run_watch_reruns_the_notebook_when_its_data_changes(tmp_path):
+    import json
+    import signal
+    import subprocess
+
+    from conftest import BINARY
+
+    data = tmp_path / "plate.csv"
+    data.write_text("\n".join(["well,dose,od"] + rows(0, 24)) + "\n")
+    nb = tmp_path / "plate.ipynb"
+    nb.write_text(json.dumps(notebook(['read "plate.csv" as plate', "anova od across dose"])))
+    out, html = tmp_path / "out.ipynb", tmp_path / "out.html"
+    err = open(tmp_path / "stderr.txt", "w+")
+    proc = subprocess.Popen([str(BINARY), "run", str(nb), "--watch", "--output", str(out), "--html", str(html)],
+                            stdout=subprocess.DEVNULL, stderr=err)
+
+    def f_now():
+        if not out.exists():
+            return None
+        cells = json.loads(out.read_text())["cells"]
+        return cells[1]["outputs"][-1]["data"][BUNDLE]
+
+    try:
+        first = wait_for(f_now, 60)
+        assert first["provenance"]["rows_used"] == 24
+        assert "run 1 at" in html.read_text()
+        with open(data, "a") as f:
+            f.write("\n".join(rows(24, 36)) + "\n")
+        second = wait_for(lambda: (b := f_now()) and b["provenance"]["rows_used"] == 36 and b, 30)
+        groups = {d: [] for d in DOSES}
+        for line in rows(0, 36):
+            _, dose, od = line.split(",")
+            groups[dose].append(float(od))
+        assert f_of(second) == pytest.approx(stats.f_oneway(*groups.values()).statistic, rel=1e-9)
+        wait_for(lambda: "run 2 at" in html.read_text() and "plate.csv changed" in html.read_text(), 10)
+        # The data file deleted: the run fails at the read, the last good outputs stay.
+        kept = out.read_text()
+        data.unlink()
+        wait_for(lambda: "outputs of the run at" in open(tmp_path / "stderr.txt").read(), 30)
+        assert out.read_text() == kept
+        log = open(tmp_path / "stderr.txt").read()
+        assert "plate.csv changed; running" in log and "cannot read" in log, log
+    finally:
+        proc.send_signal(signal.SIGINT)
+        proc.wait(timeout=10)
+        err.close()
