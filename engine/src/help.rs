@@ -43,6 +43,10 @@ pub const VERBS: &[VerbHelp] = &[
                 "sheet \"NAME\"",
                 "spreadsheets: the sheet to read (default the first)",
             ),
+            (
+                "watch",
+                "follow the file: when it changes, the results that used it are recomputed and replaced in place",
+            ),
         ],
         example: "read \"data/feeding.csv\" as trial with factor pen",
     },
