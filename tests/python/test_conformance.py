@@ -30,10 +30,11 @@ class PartitaKernelTests(jupyter_kernel_test.KernelTests):
     code_generate_error = "anova weight across feed in nothing_read_yet"
 
     # The read summary is Partita's own plain-text format (engine/src/session.rs, read_answer).
+    # Its own dataset name: a second read of `t` would add the note that nothing changed.
     code_execute_result = [
         {
-            "code": f'read "{DATA}" as t',
-            "result": f"dataset t: 4 rows × 2 columns from {DATA} (comma-separated)\n"
+            "code": f'read "{DATA}" as first_read',
+            "result": f"dataset first_read: 4 rows × 2 columns from {DATA} (comma-separated)\n"
             "  feed: factor, 2 levels: A, B\n"
             "  weight: numeric, range 1.5 to 4",
         },
