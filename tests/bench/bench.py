@@ -291,6 +291,8 @@ def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--bin", default=str(ROOT / "target" / "release" / "partita"))
     ap.add_argument("--smoke", action="store_true", help="a few seconds, to prove the script works")
+    ap.add_argument("--only", choices=["permutation", "factorial", "repeated"],
+                    help="run one benchmark alone")
     a = ap.parse_args()
     starts, trips = (2, 3) if a.smoke else (15, 200)
     prefix = pathlib.Path(tempfile.mkdtemp(prefix="partita-bench-"))
@@ -298,6 +300,9 @@ def main():
     subprocess.run([sys.executable, "-m", "ipykernel", "install", "--prefix", str(prefix), "--name", "bench-python"],
                    check=True, capture_output=True)
     os.environ["JUPYTER_PATH"] = str(prefix / "share" / "jupyter")
+    if a.only:
+        {"permutation": permutation_bench, "factorial": factorial_bench, "repeated": rm_bench}[a.only](a.smoke)
+        return
     p_start, p_rt = measure("partita", PARTITA_SETUP, PARTITA_CELL, starts, trips)
     y_start, y_rt = measure("bench-python", PY_SETUP, PY_CELL, starts, trips)
     print(f"binary: {a.bin}{'  (smoke run: few repetitions)' if a.smoke else ''}")

@@ -3,6 +3,7 @@
 
 pub mod assumptions;
 pub mod compare;
+pub mod deal;
 pub mod describe;
 pub mod factorial;
 pub mod linear;

@@ -20,11 +20,12 @@
 //! observed one count despite rounding. Reproducibility: draws are split into fixed blocks of
 //! 2,000; block j draws from xoshiro256++ (Blackman & Vigna 2018) seeded by SplitMix64 from the
 //! seed and j, so the same seed gives the same p whatever the number of threads. With one
-//! factor, a draw is a partial Fisher–Yates shuffle that deals the values of every group but
-//! the first (whose sum is the rest), on values stored group by group; draws are made two at a
-//! time from two generators of the block so that their dependency chains overlap. Memory is flat: the null
+//! factor, a draw assigns the units to groups as bit masks without moving the values
+//! ([`super::deal`]: fair bits, then uniform corrections to the group sizes — uniform over all
+//! assignments) and reads the group sums from a table of subset sums. Memory is flat: the null
 //! is kept as a fixed histogram.
 
+use super::deal::Dealer;
 use super::linear::{SsType, hypothesis_form, reduced_fit, term_df, within_contrasts};
 use crate::Cancel;
 use nalgebra::DMatrix;
@@ -359,70 +360,27 @@ fn run_block(test: &Test, seed: u64, stream: u64, n: u64, upper: f64, cancel: &C
     };
     match test {
         Test::Between(t) if t.one_factor => {
-            // Values stored group by group; a draw deals groups 1…k−1 from the end by a partial
-            // Fisher–Yates shuffle, group 0 keeps the rest.
-            let mut v: Vec<f64> = Vec::with_capacity(t.y.len());
-            let k = t.counts.len();
-            for g in 0..k {
-                v.extend(
-                    t.cell
-                        .iter()
-                        .zip(&t.y)
-                        .filter(|(c, _)| **c == g)
-                        .map(|(_, y)| *y),
-                );
-            }
-            let total: f64 = v.iter().sum();
-            let nn = v.len();
-            let mean = total / nn as f64;
-            let sst: f64 = v.iter().map(|x| (x - mean) * (x - mean)).sum();
-            let n0 = t.counts[0] as usize;
-            let f_of = |v: &[f64]| {
-                let mut at = n0;
-                let mut rest = total;
-                let mut ssb = 0.0;
-                for g in 1..k {
-                    let len = t.counts[g] as usize;
-                    let s = sum4(&v[at..at + len]);
-                    ssb += (s - t.counts[g] * mean).powi(2) / t.counts[g];
-                    rest -= s;
-                    at += len;
-                }
-                ssb += (rest - t.counts[0] * mean).powi(2) / t.counts[0];
-                (ssb / t.df) / ((sst - ssb) / t.df_e)
-            };
-            // Two draws at a time from two generators, so that their dependency chains
-            // (generator state, multiply, swap) overlap in the processor.
-            let mut rng_b =
-                Gen::seed_from_u64(splitmix(splitmix(seed ^ 0xA076_1D64_78BD_642F) ^ stream));
-            let mut vb = v.clone();
-            let (mut bits_a, mut bits_b) = (Bits::default(), Bits::default());
-            let mut i = 0;
-            while i < n {
-                if i % 256 < 2 && cancel.is_cancelled() {
+            // Groups as bit masks over the units (`deal`); F from the group sums.
+            let counts: Vec<usize> = t.counts.iter().map(|&c| c as usize).collect();
+            let mut dealer = Dealer::new(&t.y, &counts);
+            let nn = t.y.len() as f64;
+            let mean = t.y.iter().sum::<f64>() / nn;
+            let sst: f64 = t.y.iter().map(|x| (x - mean) * (x - mean)).sum();
+            for i in 0..n {
+                if i % 256 == 0 && cancel.is_cancelled() {
                     break;
                 }
-                let fs = if i + 1 < n {
-                    for p in (n0..nn).rev() {
-                        let ja = bits_a.below(&mut rng, (p + 1) as u32);
-                        let jb = bits_b.below(&mut rng_b, (p + 1) as u32);
-                        v.swap(p, ja);
-                        vb.swap(p, jb);
+                dealer.deal(&mut rng);
+                let mut ssb = 0.0;
+                for (s, &c) in dealer.sums.iter().zip(&t.counts) {
+                    if c > 0.0 {
+                        ssb += (s - c * mean).powi(2) / c;
                     }
-                    [Some(f_of(&v)), Some(f_of(&vb))]
-                } else {
-                    for p in (n0..nn).rev() {
-                        let j = bits_a.below(&mut rng, (p + 1) as u32);
-                        v.swap(p, j);
-                    }
-                    [Some(f_of(&v)), None]
-                };
-                for f in fs.into_iter().flatten() {
-                    out.ge += u64::from(tie(f, f_obs));
-                    out.null.add(f);
-                    out.done += 1;
-                    i += 1;
                 }
+                let f = (ssb / t.df) / ((sst - ssb) / t.df_e);
+                out.ge += u64::from(tie(f, f_obs));
+                out.null.add(f);
+                out.done += 1;
             }
         }
         Test::Between(t) => {
@@ -466,20 +424,6 @@ fn run_block(test: &Test, seed: u64, stream: u64, n: u64, upper: f64, cancel: &C
     out
 }
 
-/// A sum with four running accumulators (the single-accumulator loop waits on each addition).
-fn sum4(v: &[f64]) -> f64 {
-    let mut acc = [0.0f64; 4];
-    let chunks = v.chunks_exact(4);
-    let rest = chunks.remainder();
-    for c in chunks {
-        acc[0] += c[0];
-        acc[1] += c[1];
-        acc[2] += c[2];
-        acc[3] += c[3];
-    }
-    (acc[0] + acc[1]) + (acc[2] + acc[3]) + rest.iter().sum::<f64>()
-}
-
 fn shuffle(v: &mut [f64], rng: &mut Gen) {
     for i in (1..v.len()).rev() {
         let j = below(rng, i + 1);
@@ -493,33 +437,6 @@ fn below(rng: &mut Gen, n: usize) -> usize {
         rng.random_range(0..n as u32) as usize
     } else {
         rng.random_range(0..n)
-    }
-}
-
-/// Uniform indices from both 32-bit halves of each 64-bit output (Lemire 2019,
-/// multiply-and-reject), for the inner loop of the one-factor test.
-#[derive(Default)]
-struct Bits {
-    spare: Option<u32>,
-}
-
-impl Bits {
-    fn next(&mut self, rng: &mut Gen) -> u32 {
-        if let Some(x) = self.spare.take() {
-            return x;
-        }
-        let w = rand::RngCore::next_u64(rng);
-        self.spare = Some(w as u32);
-        (w >> 32) as u32
-    }
-    fn below(&mut self, rng: &mut Gen, n: u32) -> usize {
-        loop {
-            let m = u64::from(self.next(rng)) * u64::from(n);
-            let low = m as u32;
-            if low >= n || low >= n.wrapping_neg() % n {
-                return (m >> 32) as usize;
-            }
-        }
     }
 }
 
