@@ -69,7 +69,23 @@ fn a_change_refreshes_every_live_display_in_place_and_no_change_sends_nothing() 
         assert_eq!(r["ok"], true);
         assert_eq!(r["rows"], 12);
         assert_eq!(r["previous_rows"], 9);
-        assert!(r["text"].as_str().unwrap().contains("12 rows (was 9)"));
+        let t = r["text"].as_str().unwrap();
+        assert!(t.contains("12 rows (was 9)"), "{t}");
+        // "refreshed at HH:MM:SS UTC±HH:MM: …" (local time with its offset).
+        let clock: Vec<char> = t
+            .strip_prefix("refreshed at ")
+            .unwrap()
+            .chars()
+            .take(19)
+            .collect();
+        let shape: String = clock
+            .iter()
+            .map(|c| if c.is_ascii_digit() { '9' } else { *c })
+            .collect();
+        assert!(
+            shape == "99:99:99 UTC+99:99:" || shape == "99:99:99 UTC-99:99:",
+            "{t}"
+        );
         assert!(
             u.data["text/html"]
                 .as_str()
