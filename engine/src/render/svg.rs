@@ -7,6 +7,8 @@
 //! colour-vision deficiencies.
 
 use crate::lang::ast::PlotKind;
+use plotters::chart::MeshStyle;
+use plotters::coord::{CoordTranslate, ranged1d::Ranged};
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
@@ -19,6 +21,36 @@ pub const PALETTE: [RGBColor; 6] = [
     RGBColor(0x6b, 0x6b, 0x6b),
     RGBColor(0x8a, 0x6d, 0x1b),
 ];
+
+/// Grid lines: faint, so the data stand out.
+const GRID: RGBColor = RGBColor(0xe4, 0xe4, 0xe4);
+
+/// The mesh in Partita's style: faint grid lines, tick labels of `size` px and axis titles
+/// one px larger.
+fn mesh<'m, 'a, 'b, X: Ranged, Y: Ranged, DB: DrawingBackend>(
+    m: &'m mut MeshStyle<'a, 'b, X, Y, DB>,
+    size: u32,
+) -> &'m mut MeshStyle<'a, 'b, X, Y, DB> {
+    m.light_line_style(TRANSPARENT)
+        .bold_line_style(GRID)
+        .label_style(("sans-serif", size))
+        .axis_desc_style(("sans-serif", size + 1))
+}
+
+/// The legend box, in the same style on every figure.
+fn legend<'a, DB: DrawingBackend + 'a, CT: CoordTranslate>(
+    chart: &mut ChartContext<'a, DB, CT>,
+    at: SeriesLabelPosition,
+) -> Option<()> {
+    chart
+        .configure_series_labels()
+        .position(at)
+        .background_style(WHITE.mix(0.9))
+        .border_style(RGBColor(0xbb, 0xbb, 0xbb))
+        .label_font(("sans-serif", 12))
+        .draw()
+        .ok()
+}
 
 /// Most points drawn per group; larger groups are drawn as an evenly spaced sample.
 pub const MAX_DRAWN: usize = 1000;
@@ -126,17 +158,12 @@ pub fn draw(fig: &Figure) -> Option<String> {
         let fmt_x = |_: &f64| String::new();
         let x_desc = fig.x_label.clone();
         let y_desc = fig.y_label.clone();
-        chart
-            .configure_mesh()
+        mesh(&mut chart.configure_mesh(), 13)
             .disable_x_mesh()
-            .light_line_style(TRANSPARENT)
-            .bold_line_style(RGBColor(0xe4, 0xe4, 0xe4))
             .x_labels(0)
             .x_label_formatter(&fmt_x)
             .x_desc(x_desc.as_str())
             .y_desc(y_desc.as_str())
-            .label_style(("sans-serif", 13))
-            .axis_desc_style(("sans-serif", 14))
             .draw()
             .ok()?;
         for (gi, g) in fig.groups.iter().enumerate() {
@@ -314,14 +341,9 @@ fn xy_panel<DB: DrawingBackend>(
         .y_label_area_size(58)
         .build_cartesian_2d(x0..x1, y0..y1)
         .ok()?;
-    chart
-        .configure_mesh()
-        .light_line_style(TRANSPARENT)
-        .bold_line_style(RGBColor(0xe4, 0xe4, 0xe4))
+    mesh(&mut chart.configure_mesh(), 12)
         .x_desc(p.x_label.as_str())
         .y_desc(p.y_label.as_str())
-        .label_style(("sans-serif", 12))
-        .axis_desc_style(("sans-serif", 13))
         .draw()
         .ok()?;
     if let Some((a, b)) = p.line {
@@ -435,17 +457,12 @@ pub fn draw_profile(fig: &Profile) -> Option<String> {
             .build_cartesian_2d(-0.4f64..(k as f64 - 0.6), lo..hi)
             .ok()?;
         let fmt_x = |_: &f64| String::new();
-        chart
-            .configure_mesh()
+        mesh(&mut chart.configure_mesh(), 13)
             .disable_x_mesh()
-            .light_line_style(TRANSPARENT)
-            .bold_line_style(RGBColor(0xe4, 0xe4, 0xe4))
             .x_labels(0)
             .x_label_formatter(&fmt_x)
             .x_desc(fig.x_label.as_str())
             .y_desc(fig.y_label.as_str())
-            .label_style(("sans-serif", 13))
-            .axis_desc_style(("sans-serif", 14))
             .draw()
             .ok()?;
         for (si, s) in fig.series.iter().enumerate() {
@@ -497,14 +514,7 @@ pub fn draw_profile(fig: &Profile) -> Option<String> {
                 .ok()?;
         }
         if m > 1 || !fig.series[0].name.is_empty() {
-            chart
-                .configure_series_labels()
-                .position(SeriesLabelPosition::UpperLeft)
-                .background_style(WHITE.mix(0.9))
-                .border_style(RGBColor(0xbb, 0xbb, 0xbb))
-                .label_font(("sans-serif", 12))
-                .draw()
-                .ok()?;
+            legend(&mut chart, SeriesLabelPosition::UpperLeft)?;
         }
         let style =
             TextStyle::from(("sans-serif", 13).into_font()).pos(Pos::new(HPos::Center, VPos::Top));
@@ -640,16 +650,11 @@ pub fn draw_intervals(
                 String::new()
             }
         };
-        chart
-            .configure_mesh()
+        mesh(&mut chart.configure_mesh(), 12)
             .disable_y_mesh()
-            .light_line_style(TRANSPARENT)
-            .bold_line_style(RGBColor(0xe4, 0xe4, 0xe4))
             .y_labels(n.max(2) * 2 + 1)
             .y_label_formatter(&fmt_y)
             .x_desc(x_label)
-            .label_style(("sans-serif", 12))
-            .axis_desc_style(("sans-serif", 13))
             .draw()
             .ok()?;
         chart
@@ -731,14 +736,9 @@ pub fn draw_null(
             .y_label_area_size(56)
             .build_cartesian_2d(0.0..x_hi, 0.0..top.max(1e-9))
             .ok()?;
-        chart
-            .configure_mesh()
-            .light_line_style(TRANSPARENT)
-            .bold_line_style(RGBColor(0xe4, 0xe4, 0xe4))
+        mesh(&mut chart.configure_mesh(), 12)
             .x_desc("F")
             .y_desc("density")
-            .label_style(("sans-serif", 12))
-            .axis_desc_style(("sans-serif", 13))
             .draw()
             .ok()?;
         for (i, d) in dens.iter().enumerate() {
@@ -777,14 +777,7 @@ pub fn draw_null(
             .legend(|(x, y)| {
                 PathElement::new(vec![(x, y), (x + 18, y)], PALETTE[3].stroke_width(2))
             });
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
-            .background_style(WHITE.mix(0.9))
-            .border_style(RGBColor(0xbb, 0xbb, 0xbb))
-            .label_font(("sans-serif", 12))
-            .draw()
-            .ok()?;
+        legend(&mut chart, SeriesLabelPosition::UpperRight)?;
         root.present().ok()?;
     }
     Some(buf)
@@ -818,15 +811,10 @@ pub fn draw_curves(
             .y_label_area_size(56)
             .build_cartesian_2d(x_min..x_max, 0.0f64..1.0)
             .ok()?;
-        chart
-            .configure_mesh()
-            .light_line_style(TRANSPARENT)
-            .bold_line_style(RGBColor(0xe4, 0xe4, 0xe4))
+        mesh(&mut chart.configure_mesh(), 13)
             .x_label_formatter(&|x: &f64| format!("{x:.0}"))
             .x_desc(x_label)
             .y_desc(y_label)
-            .label_style(("sans-serif", 13))
-            .axis_desc_style(("sans-serif", 14))
             .draw()
             .ok()?;
         for (i, (label, pts)) in curves.iter().enumerate() {
@@ -842,14 +830,7 @@ pub fn draw_curves(
         chart
             .draw_series(std::iter::once(Circle::new(point, 6, BLACK.filled())))
             .ok()?;
-        chart
-            .configure_series_labels()
-            .position(SeriesLabelPosition::LowerRight)
-            .background_style(WHITE.mix(0.9))
-            .border_style(RGBColor(0xbb, 0xbb, 0xbb))
-            .label_font(("sans-serif", 12))
-            .draw()
-            .ok()?;
+        legend(&mut chart, SeriesLabelPosition::LowerRight)?;
         root.present().ok()?;
     }
     Some(buf)
