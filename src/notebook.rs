@@ -187,7 +187,7 @@ pub fn watch(
     let mut good_at: Option<String> = None;
     let mut why = String::from("first run");
     for run_no in 1.. {
-        let at = chrono::Local::now().format("%H:%M:%S UTC%:z").to_string();
+        let at = engine::render::fmt::local_time();
         match run(path, keep_going) {
             Ok(mut report) => {
                 for f in &report.inputs {

@@ -3,7 +3,7 @@
 
 mod common;
 
-use common::{bundle, run, with_data};
+use common::{bundle, run, texts, with_data};
 use engine::ErrorKind;
 
 const TWO_BY_TWO: &str = "a,b,y\nx,p,1\nx,p,2\nx,q,3\nx,q,5\ny,p,4\ny,p,4.5\ny,q,8\ny,q,9\ny,q,7\n";
@@ -13,12 +13,7 @@ fn factorial_answers_with_table_sentence_and_interaction_figure() {
     let mut s = with_data(TWO_BY_TWO);
     let out = run(&mut s, "anova y across a, b").unwrap();
     let b = bundle(&out[0]);
-    let effects: Vec<&str> = b["tables"]["anova"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .map(|r| r["effect"].as_str().unwrap())
-        .collect();
+    let effects = texts(b, "anova", "effect");
     assert_eq!(effects, ["a", "b", "a × b", "Residual", "Total"]);
     assert_eq!(b["design"]["ss_type"], 2);
     let report = b["report"].as_str().unwrap();
@@ -116,12 +111,7 @@ fn check_gives_tests_figures_and_considered_notes() {
     let mut s = with_data(&text);
     let out = run(&mut s, "check y across g").unwrap();
     let b = bundle(&out[0]);
-    let checks: Vec<&str> = b["tables"]["checks"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .map(|r| r["check"].as_str().unwrap())
-        .collect();
+    let checks = texts(b, "checks", "check");
     assert_eq!(checks, ["brown_forsythe", "levene", "shapiro_wilk"]);
     let notes = b["notes"].to_string();
     assert!(notes.contains("spread differs across g"), "{notes}");

@@ -4,7 +4,7 @@
 
 mod common;
 
-use common::{bundle, run, with_data};
+use common::{bundle, run, texts, with_data};
 use engine::ErrorKind;
 
 /// Long layout: subjects s1…sN, groups g (between) and t1…tk (within), y from `f`.
@@ -45,12 +45,7 @@ fn classification_is_stated_with_its_evidence() {
             .unwrap()
             .contains("changes inside 12 of 12 subjects")
     );
-    let effects: Vec<&str> = b["tables"]["anova"]
-        .as_array()
-        .unwrap()
-        .iter()
-        .map(|r| r["effect"].as_str().unwrap())
-        .collect();
+    let effects = texts(b, "anova", "effect");
     assert_eq!(effects, ["grp", "time", "grp × time"]);
     let text = out[0].data["text/plain"].as_str().unwrap();
     assert!(text.contains("Mixed ANOVA"), "{text}");

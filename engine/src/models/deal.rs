@@ -19,9 +19,10 @@
 //!
 //! A group's sum is read from a table of the sums of every subset of four consecutive values
 //! (16 entries per four units, so one lookup per four units), or, for more than 65,536 units
-//! (table above 2 MiB), by visiting the set bits. Indices are drawn by Lemire's
-//! multiply-and-reject (Lemire 2019) from both halves of each 64-bit word.
+//! (table above 2 MiB), by visiting the set bits. Indices come from `rand`'s uniform range
+//! sampling.
 
+use rand::Rng;
 use rand_xoshiro::Xoshiro256PlusPlus as Gen;
 
 /// Units up to which group sums come from the subset-sum table.
@@ -54,7 +55,6 @@ pub struct Dealer {
     values: Vec<f64>,
     total: f64,
     members: Vec<u32>,
-    spare: Option<u32>,
     /// Each group's sum after [`Dealer::deal`].
     pub sums: Vec<f64>,
 }
@@ -123,28 +123,7 @@ impl Dealer {
             values: values.to_vec(),
             total: values.iter().sum(),
             members: Vec::new(),
-            spare: None,
             sums: vec![0.0; counts.len()],
-        }
-    }
-
-    fn next32(&mut self, rng: &mut Gen) -> u32 {
-        if let Some(x) = self.spare.take() {
-            return x;
-        }
-        let w = rand::RngCore::next_u64(rng);
-        self.spare = Some(w as u32);
-        (w >> 32) as u32
-    }
-
-    /// A uniform index in 0..m (m ≥ 1, below 2³²).
-    fn below(&mut self, rng: &mut Gen, m: u32) -> usize {
-        loop {
-            let x = u64::from(self.next32(rng)) * u64::from(m);
-            let low = x as u32;
-            if low >= m || low >= m.wrapping_neg() % m {
-                return (x >> 32) as usize;
-            }
         }
     }
 
@@ -242,10 +221,10 @@ impl Dealer {
             };
             while moves > 0 {
                 let u = if listed {
-                    let j = self.below(rng, m as u32);
+                    let j = rng.random_range(0..m as u32) as usize;
                     self.members[j] as usize
                 } else {
-                    self.below(rng, self.n as u32)
+                    rng.random_range(0..self.n as u32) as usize
                 };
                 // Without a branch on the (unpredictable) hit: a miss moves nothing.
                 let (w, s) = (u / 64, u % 64);

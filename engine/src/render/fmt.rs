@@ -133,3 +133,9 @@ mod tests {
         assert_eq!(df(2.104), "2.10");
     }
 }
+
+/// The time now as a reader of a banner needs it: local time with its offset from UTC
+/// ("10:42:13 UTC+01:00"), unambiguous in a notebook shared across time zones.
+pub fn local_time() -> String {
+    chrono::Local::now().format("%H:%M:%S UTC%:z").to_string()
+}

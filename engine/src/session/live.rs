@@ -92,15 +92,12 @@ fn absolute(p: &Path) -> PathBuf {
     std::path::absolute(p).unwrap_or_else(|_| p.to_path_buf())
 }
 
-/// The time for a banner (the machine's local time with its offset, e.g. "10:42:13
-/// UTC+01:00") and for the bundle (RFC 3339, UTC).
+/// The time for a banner (see [`crate::render::fmt::local_time`]) and for the bundle
+/// (RFC 3339, UTC).
 fn clock() -> (String, String) {
-    let now = chrono::Utc::now();
     (
-        now.with_timezone(&chrono::Local)
-            .format("%H:%M:%S UTC%:z")
-            .to_string(),
-        now.to_rfc3339_opts(chrono::SecondsFormat::Secs, true),
+        crate::render::fmt::local_time(),
+        chrono::Utc::now().to_rfc3339_opts(chrono::SecondsFormat::Secs, true),
     )
 }
 

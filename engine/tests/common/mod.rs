@@ -28,3 +28,17 @@ pub fn with_data(text: &str) -> Session {
 pub fn bundle(o: &Output) -> &serde_json::Value {
     &o.data["application/vnd.partita.result+json"]
 }
+
+/// The text in column `key` of every row of bundle table `table`.
+pub fn texts<'a>(b: &'a serde_json::Value, table: &str, key: &str) -> Vec<&'a str> {
+    b["tables"][table]
+        .as_array()
+        .unwrap_or_else(|| panic!("no table {table}"))
+        .iter()
+        .map(|r| {
+            r[key]
+                .as_str()
+                .unwrap_or_else(|| panic!("{table}.{key} is not text"))
+        })
+        .collect()
+}
