@@ -9,7 +9,7 @@ use crate::models::describe::{CellSummary, summarise};
 use crate::models::oneway::oneway;
 use crate::render::fmt::{df, es, num, p_report, p_table, stat};
 use crate::render::svg::{Figure, Group, draw};
-use crate::render::{Align, Answer, DisplayTable, Provenance};
+use crate::render::{Align, AnovaLine, Answer, DisplayTable, Provenance};
 use crate::session::{check_options, one_number};
 use serde_json::{Value as Json, json};
 use std::collections::BTreeMap;
@@ -201,42 +201,20 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
                 "One-way ANOVA: {y_label} across {factor_label} ({} levels, {} observations)",
                 fit.k, fit.n
             );
-            let opt = |x: Option<f64>| x.map(num).unwrap_or_default();
-            answer.tables.push(DisplayTable {
-                caption: "Analysis of variance (between subjects)".into(),
-                columns: vec![
-                    ("Source".into(), Align::Left),
-                    ("df".into(), Align::Right),
-                    ("SS".into(), Align::Right),
-                    ("MS".into(), Align::Right),
-                    ("F".into(), Align::Right),
-                    ("p".into(), Align::Right),
-                    ("η²".into(), Align::Right),
-                    ("ω²".into(), Align::Right),
-                ],
-                rows: fit
-                    .rows
-                    .iter()
-                    .map(|r| {
-                        vec![
-                            r.effect.clone(),
-                            df(r.df),
-                            num(r.ss),
-                            opt(r.ms),
-                            r.f.map(num).unwrap_or_else(|| {
-                                if r.effect == *fname {
-                                    "undefined".into()
-                                } else {
-                                    String::new()
-                                }
-                            }),
-                            r.p.map(p_table).unwrap_or_default(),
-                            opt(r.eta2),
-                            opt(r.omega2),
-                        ]
-                    })
-                    .collect(),
-            });
+            answer.tables.push(crate::render::anova_table(
+                "Analysis of variance (between subjects)".into(),
+                ["η²", "ω²"],
+                fit.rows.iter().map(|r| AnovaLine {
+                    effect: &r.effect,
+                    df: r.df,
+                    ss: r.ss,
+                    ms: r.ms,
+                    f: r.f,
+                    is_effect: r.effect == *fname,
+                    p: r.p,
+                    sizes: [r.eta2, r.omega2],
+                }),
+            ));
             answer.tables.push(cells_table);
             answer.report = Some(match (e.f, e.p) {
                 (Some(f), Some(p)) => format!(

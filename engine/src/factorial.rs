@@ -8,9 +8,9 @@ use crate::models::describe::{CellSummary, summarise};
 use crate::models::factorial::factorial;
 use crate::models::linear::{CellStats, SsType};
 use crate::models::sums::centred_ss;
-use crate::render::fmt::{df, es, num, p_report, p_table, stat};
+use crate::render::fmt::{df, es, p_report, stat};
 use crate::render::svg::{Profile, Series, draw_profile};
-use crate::render::{Align, DisplayTable};
+use crate::render::{AnovaLine, DisplayTable};
 use serde_json::{Value as Json, json};
 use std::collections::BTreeMap;
 
@@ -207,9 +207,8 @@ pub(crate) fn run(
     let stats = CellStats::from_values(&lay.sizes, &lay.cell, &lay.y);
     let grand = crate::models::sums::mean(&lay.y);
     let fit = factorial(&lay.displays, &stats, centred_ss(&lay.y, grand), ty)?;
-    let opt = |x: Option<f64>| x.map(num).unwrap_or_default();
-    let table = DisplayTable {
-        caption: format!(
+    let table = crate::render::anova_table(
+        format!(
             "Analysis of variance, between subjects, full factorial (sums of squares type {}{})",
             ty.number(),
             if ty == SsType::Three {
@@ -218,38 +217,18 @@ pub(crate) fn run(
                 ": each effect adjusted for the effects that do not contain it"
             }
         ),
-        columns: vec![
-            ("Source".into(), Align::Left),
-            ("df".into(), Align::Right),
-            ("SS".into(), Align::Right),
-            ("MS".into(), Align::Right),
-            ("F".into(), Align::Right),
-            ("p".into(), Align::Right),
-            ("ηp²".into(), Align::Right),
-            ("ωp²".into(), Align::Right),
-        ],
-        rows: fit
-            .rows
-            .iter()
-            .map(|r| {
-                let is_effect = r.df_error.is_some();
-                vec![
-                    r.effect.clone(),
-                    df(r.df),
-                    num(r.ss),
-                    opt(r.ms),
-                    match r.f {
-                        Some(f) => num(f),
-                        None if is_effect => "undefined".into(),
-                        None => String::new(),
-                    },
-                    r.p.map(p_table).unwrap_or_default(),
-                    opt(r.eta2_partial),
-                    opt(r.omega2_partial),
-                ]
-            })
-            .collect(),
-    };
+        ["ηp²", "ωp²"],
+        fit.rows.iter().map(|r| AnovaLine {
+            effect: &r.effect,
+            df: r.df,
+            ss: r.ss,
+            ms: r.ms,
+            f: r.f,
+            is_effect: r.df_error.is_some(),
+            p: r.p,
+            sizes: [r.eta2_partial, r.omega2_partial],
+        }),
+    );
     let df_e = fit.rows[fit.rows.len() - 2].df;
     let report = fit
         .rows

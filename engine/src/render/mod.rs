@@ -11,6 +11,74 @@ pub mod text;
 
 use serde_json::{Map, Value, json};
 
+/// One line of a between-subjects ANOVA table as shown.
+#[derive(Debug, Clone)]
+pub struct AnovaLine<'a> {
+    /// Effect, `Residual` or `Total`.
+    pub effect: &'a str,
+    /// df.
+    pub df: f64,
+    /// SS.
+    pub ss: f64,
+    /// MS (none for Total).
+    pub ms: Option<f64>,
+    /// F (none on the error and total lines, or when undefined).
+    pub f: Option<f64>,
+    /// Whether the line is an effect: a missing F then reads "undefined".
+    pub is_effect: bool,
+    /// p.
+    pub p: Option<f64>,
+    /// The two effect sizes of the table's last columns.
+    pub sizes: [Option<f64>; 2],
+}
+
+/// A between-subjects ANOVA table: Source, df, SS, MS, F, p and two effect-size columns
+/// headed `size_heads`.
+pub fn anova_table<'a>(
+    caption: String,
+    size_heads: [&str; 2],
+    lines: impl Iterator<Item = AnovaLine<'a>>,
+) -> DisplayTable {
+    use fmt::{df, num, p_table};
+    let opt = |x: Option<f64>| x.map(num).unwrap_or_default();
+    let mut columns: Vec<(String, Align)> = ["Source", "df", "SS", "MS", "F", "p"]
+        .iter()
+        .map(|h| {
+            (
+                h.to_string(),
+                if *h == "Source" {
+                    Align::Left
+                } else {
+                    Align::Right
+                },
+            )
+        })
+        .collect();
+    columns.extend(size_heads.iter().map(|h| (h.to_string(), Align::Right)));
+    DisplayTable {
+        caption,
+        columns,
+        rows: lines
+            .map(|r| {
+                vec![
+                    r.effect.to_string(),
+                    df(r.df),
+                    num(r.ss),
+                    opt(r.ms),
+                    match r.f {
+                        Some(f) => num(f),
+                        None if r.is_effect => "undefined".into(),
+                        None => String::new(),
+                    },
+                    r.p.map(p_table).unwrap_or_default(),
+                    opt(r.sizes[0]),
+                    opt(r.sizes[1]),
+                ]
+            })
+            .collect(),
+    }
+}
+
 /// The MIME type of the machine-readable result bundle.
 pub const BUNDLE_MIME: &str = "application/vnd.partita.result+json";
 
