@@ -133,17 +133,7 @@ def measure(name, setup, cell, starts, trips):
         times.append(t)
         kc.stop_channels()
         km.shutdown_kernel(now=True)
-    km, kc, _ = cold_start(name)
-    run_cell(kc, setup)
-    run_cell(kc, cell)  # warm up
-    rt = []
-    for _ in range(trips):
-        t0 = time.perf_counter()
-        run_cell(kc, cell)
-        rt.append(time.perf_counter() - t0)
-    kc.stop_channels()
-    km.shutdown_kernel(now=True)
-    return statistics.median(times), statistics.median(rt)
+    return statistics.median(times), timed_cells(name, setup, cell, trips)
 
 
 def rm_data(path, n, k, groups, seed=1):
@@ -241,6 +231,9 @@ def permutation_bench(smoke):
     import numpy as np
     from scipy import stats
 
+    sys.path.insert(0, str(ROOT / "tests" / "python"))
+    from test_permute import f_vectorized  # the same F as the randomisation tests use
+
     draws = 10_000 if smoke else 100_000
     rng = np.random.default_rng(6)
     groups = [rng.normal(10 + 0.05 * i, 1.0, size=250) for i in range(4)]
@@ -266,17 +259,8 @@ def permutation_bench(smoke):
     kc.stop_channels()
     km.shutdown_kernel(now=True)
 
-    def f_vec(*g, axis=-1):
-        n = [x.shape[axis] for x in g]
-        means = [x.mean(axis=axis) for x in g]
-        total = sum(n)
-        grand = sum(m * k for m, k in zip(means, n)) / total
-        ssb = sum(k * (m - grand) ** 2 for m, k in zip(means, n))
-        ssw = sum(((x - np.expand_dims(m, axis)) ** 2).sum(axis=axis) for x, m in zip(g, means))
-        return (ssb / 3) / (ssw / (total - 4))
-
     t0 = time.perf_counter()
-    stats.permutation_test(groups, f_vec, permutation_type="independent", n_resamples=draws,
+    stats.permutation_test(groups, f_vectorized, permutation_type="independent", n_resamples=draws,
                            alternative="greater", vectorized=True, rng=np.random.default_rng(0))
     sp_time = time.perf_counter() - t0
     print(f"randomisation test, one-way, N = 1,000, k = 4, {draws:,} draws ({os.cpu_count()} cores):")
