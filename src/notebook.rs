@@ -246,17 +246,9 @@ pub fn watch(
     Ok(())
 }
 
-/// Writes through a temporary file and a rename, so a reader never sees half a file.
+/// Writes through a temporary file and a rename (the engine's atomic write, as `save` uses).
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> Result<()> {
-    let dir = path
-        .parent()
-        .filter(|p| !p.as_os_str().is_empty())
-        .unwrap_or(Path::new("."));
-    let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("out");
-    let tmp = dir.join(format!(".{name}.partita-tmp"));
-    std::fs::write(&tmp, bytes).with_context(|| format!("cannot write {}", tmp.display()))?;
-    std::fs::rename(&tmp, path)
-        .with_context(|| format!("cannot move {} to {}", tmp.display(), path.display()))
+    engine::write_atomic(path, bytes).with_context(|| format!("cannot write {}", path.display()))
 }
 
 impl Report {

@@ -39,6 +39,7 @@ pub mod simultaneous;
 pub mod subjects;
 
 pub use error::{CellError, ErrorKind, Span};
+pub use save::write_atomic;
 pub use session::{Completion, Inspection, Session};
 
 use std::sync::Arc;

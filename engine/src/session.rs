@@ -221,12 +221,7 @@ impl Session {
                 path,
                 options,
             } => {
-                let full = match &self.base_dir {
-                    Some(b) if !std::path::Path::new(&path.value).is_absolute() => {
-                        b.join(&path.value)
-                    }
-                    _ => PathBuf::from(&path.value),
-                };
+                let full = self.full_path(&path.value);
                 let inputs: Vec<PathBuf> = self.origins.values().map(|o| o.0.clone()).collect();
                 crate::save::save(self.last.as_ref(), what, path, &full, options, &inputs).map(Some)
             }
@@ -242,6 +237,14 @@ impl Session {
                 }
                 Ok(Some(short(format!("paused {} s", seconds.value))))
             }
+        }
+    }
+
+    /// A path as written in a cell, relative to the notebook's folder when one is set.
+    fn full_path(&self, written: &str) -> PathBuf {
+        match &self.base_dir {
+            Some(b) if !std::path::Path::new(written).is_absolute() => b.join(written),
+            _ => PathBuf::from(written),
         }
     }
 
@@ -354,10 +357,7 @@ impl Session {
         if ro.decimal_comma && ro.delimiter.is_none() {
             ro.delimiter = Some(b';');
         }
-        let full = match &self.base_dir {
-            Some(b) if !std::path::Path::new(&path.value).is_absolute() => b.join(&path.value),
-            _ => PathBuf::from(&path.value),
-        };
+        let full = self.full_path(&path.value);
         let bytes = read_bytes(&full, &path.value).map_err(|e| e.at_if_none(path.span))?;
         let sheet_opt = options.iter().find(|o| o.name.value == "sheet");
         let spreadsheet = crate::data::sheet::is_spreadsheet(&full);

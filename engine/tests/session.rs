@@ -43,7 +43,21 @@ fn missing_file_names_the_path_and_the_folder() {
         e.message,
         "cannot read \"no/such.csv\": there is no such file"
     );
-    assert!(e.notes[0].starts_with("relative paths start from the working folder"));
+    let cwd = std::env::current_dir().unwrap();
+    assert_eq!(
+        e.notes[0],
+        format!("looked for {}", cwd.join("no/such.csv").display())
+    );
+    // With a notebook folder, relative paths start there, and the note says where it looked.
+    let mut nb = Session::with_base_dir(dir());
+    let e = run(&mut nb, "read \"no/such.csv\" as t").unwrap_err();
+    assert_eq!(
+        e.notes[0],
+        format!(
+            "looked for {}",
+            std::path::absolute(dir().join("no/such.csv")).unwrap().display()
+        )
+    );
     let d = dir().display().to_string();
     let e = run(&mut s, &format!("read \"{d}\" as t")).unwrap_err();
     assert!(e.message.contains("is a folder"), "{}", e.message);

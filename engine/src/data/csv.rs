@@ -71,12 +71,10 @@ pub fn read_bytes(path: &std::path::Path, shown: &str) -> Result<Vec<u8>, CellEr
             std::io::ErrorKind::PermissionDenied => "permission to read it was refused".to_string(),
             _ => e.to_string(),
         };
-        let cwd = std::env::current_dir()
-            .map(|d| d.display().to_string())
-            .unwrap_or_default();
-        CellError::data(format!("cannot read \"{shown}\": {what}")).note(format!(
-            "relative paths start from the working folder, {cwd}"
-        ))
+        // The full path looked for: a relative path starts from the notebook's folder.
+        let looked = std::path::absolute(path).unwrap_or_else(|_| path.to_path_buf());
+        CellError::data(format!("cannot read \"{shown}\": {what}"))
+            .note(format!("looked for {}", looked.display()))
     })
 }
 
