@@ -26,6 +26,9 @@ enum Command {
         /// The connection file Jupyter wrote.
         #[arg(long = "connection-file", short = 'f')]
         connection_file: PathBuf,
+        /// The most MiB one inbound message may hold; a peer announcing more is disconnected.
+        #[arg(long = "max-message-mib", default_value_t = 256, value_parser = clap::value_parser!(u64).range(1..=65536))]
+        max_message_mib: u64,
     },
     /// Install the kernelspec so Jupyter offers Partita.
     Install {
@@ -69,7 +72,10 @@ fn main() {
 fn real_main() -> Result<()> {
     let cli = Cli::parse();
     match cli.command {
-        Command::Kernel { connection_file } => {
+        Command::Kernel {
+            connection_file,
+            max_message_mib,
+        } => {
             let text = std::fs::read_to_string(&connection_file).with_context(|| {
                 format!(
                     "cannot read the connection file {}",
@@ -77,7 +83,13 @@ fn real_main() -> Result<()> {
                 )
             })?;
             let conn = kernel::ConnectionInfo::parse(&text).map_err(anyhow::Error::msg)?;
-            kernel::serve(conn, Box::new(session::EngineInterpreter::new()))
+            if let Some(warning) = conn.security().map_err(anyhow::Error::msg)? {
+                eprintln!("partita: {warning}");
+            }
+            let limits = kernel::Limits {
+                max_message_bytes: usize::try_from(max_message_mib << 20).unwrap_or(usize::MAX),
+            };
+            kernel::serve(conn, Box::new(session::EngineInterpreter::new()), limits)
                 .map_err(anyhow::Error::msg)
         }
         Command::Install {

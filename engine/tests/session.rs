@@ -55,7 +55,9 @@ fn missing_file_names_the_path_and_the_folder() {
         e.notes[0],
         format!(
             "looked for {}",
-            std::path::absolute(dir().join("no/such.csv")).unwrap().display()
+            std::path::absolute(dir().join("no/such.csv"))
+                .unwrap()
+                .display()
         )
     );
     let d = dir().display().to_string();

@@ -6,6 +6,10 @@
 //! thread that owns the interpreter, so a long computation never starves the control and
 //! heartbeat tasks. After the shutdown reply the process waits 100 ms before exiting, because
 //! the zeromq crate has no linger and would drop the last messages.
+//!
+//! Every socket bounds what one inbound message may hold ([`Limits::max_message_bytes`],
+//! through the patch kept in `vendor/zeromq`): a peer that announces more is disconnected
+//! before anything is reserved, and the kernel keeps serving.
 
 use crate::connection::ConnectionInfo;
 use crate::dispatch::{Channel, Control, Dispatcher, Flow, Transport, decode_or_log, is_execute};
@@ -17,7 +21,34 @@ use bytes::Bytes;
 use std::sync::Arc;
 use std::sync::atomic::AtomicBool;
 use tokio::sync::mpsc::{UnboundedSender, unbounded_channel};
-use zeromq::{PubSocket, RepSocket, RouterSocket, Socket, SocketRecv, SocketSend, ZmqMessage};
+use zeromq::{
+    PubSocket, RepSocket, RouterSocket, Socket, SocketOptions, SocketRecv, SocketSend, ZmqMessage,
+};
+
+/// Bounds on what peers may send.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Limits {
+    /// The most bytes one inbound message (all its frames) may hold.
+    pub max_message_bytes: usize,
+}
+
+/// The default bound on an inbound message: 256 MiB, far above any cell or reply.
+pub const DEFAULT_MAX_MESSAGE_BYTES: usize = 256 << 20;
+
+impl Default for Limits {
+    fn default() -> Limits {
+        Limits {
+            max_message_bytes: DEFAULT_MAX_MESSAGE_BYTES,
+        }
+    }
+}
+
+/// A socket whose inbound messages are bounded by `limits`.
+pub fn bounded<S: Socket>(limits: Limits) -> S {
+    let mut o = SocketOptions::default();
+    o.max_message_size(limits.max_message_bytes);
+    S::with_options(o)
+}
 
 type Frames = Vec<Vec<u8>>;
 
@@ -53,13 +84,17 @@ fn from_zmq(m: ZmqMessage) -> Frames {
 }
 
 /// Binds the five sockets and serves until a shutdown request.
-pub fn serve(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), String> {
+pub fn serve(
+    conn: ConnectionInfo,
+    interp: Box<dyn Interpreter>,
+    limits: Limits,
+) -> Result<(), String> {
     let rt = tokio::runtime::Builder::new_multi_thread()
         .worker_threads(2)
         .enable_all()
         .build()
         .map_err(|e| format!("cannot start the runtime: {e}"))?;
-    rt.block_on(run(conn, interp))
+    rt.block_on(run(conn, interp, limits))
 }
 
 async fn bind<S: Socket>(
@@ -93,12 +128,16 @@ fn spawn_sender<S: SocketSend + Send + 'static>(
     });
 }
 
-async fn run(conn: ConnectionInfo, interp: Box<dyn Interpreter>) -> Result<(), String> {
-    let mut shell = RouterSocket::new();
-    let mut control = RouterSocket::new();
-    let mut stdin = RouterSocket::new();
-    let mut iopub = PubSocket::new();
-    let mut hb = RepSocket::new();
+async fn run(
+    conn: ConnectionInfo,
+    interp: Box<dyn Interpreter>,
+    limits: Limits,
+) -> Result<(), String> {
+    let mut shell: RouterSocket = bounded(limits);
+    let mut control: RouterSocket = bounded(limits);
+    let mut stdin: RouterSocket = bounded(limits);
+    let mut iopub: PubSocket = bounded(limits);
+    let mut hb: RepSocket = bounded(limits);
     bind(&mut shell, &conn, conn.shell_port, "shell").await?;
     bind(&mut control, &conn, conn.control_port, "control").await?;
     bind(&mut stdin, &conn, conn.stdin_port, "stdin").await?;

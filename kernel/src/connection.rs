@@ -47,6 +47,35 @@ impl ConnectionInfo {
         Ok(c)
     }
 
+    /// Whether the address binds the loopback interface only (127.0.0.0/8, ::1, localhost).
+    pub fn is_loopback(&self) -> bool {
+        match self.ip.as_str() {
+            "localhost" => true,
+            ip => ip
+                .parse::<std::net::IpAddr>()
+                .is_ok_and(|a| a.is_loopback()),
+        }
+    }
+
+    /// The security of the connection: an error for an unsigned kernel on an address other
+    /// machines can reach (anyone there could run statements and read files), a warning for
+    /// an unsigned kernel on loopback (any local user could), nothing when messages are
+    /// signed.
+    pub fn security(&self) -> Result<Option<String>, String> {
+        if !self.key.is_empty() {
+            return Ok(None);
+        }
+        if !self.is_loopback() {
+            return Err(format!(
+                "the connection file has an empty key and the address \"{}\" is reachable from other machines: anyone there could run statements in this kernel; give a key, or bind 127.0.0.1",
+                self.ip
+            ));
+        }
+        Ok(Some(
+            "warning: the connection file has an empty key, so messages are not signed and any local user who can reach these ports can run statements; Jupyter normally writes a key".into(),
+        ))
+    }
+
     /// The endpoint for `port` (`*` becomes `0.0.0.0`, which the zeromq crate parses).
     pub fn endpoint(&self, port: u16) -> String {
         let ip = if self.ip == "*" {
@@ -75,6 +104,25 @@ mod tests {
         let c = ConnectionInfo::parse(FILE).unwrap();
         assert_eq!(c.endpoint(c.shell_port), "tcp://127.0.0.1:5001");
         assert_eq!(c.key, "abc");
+    }
+
+    #[test]
+    fn an_empty_key_is_refused_off_loopback_and_warned_on_it() {
+        let unsigned = FILE.replace("\"abc\"", "\"\"").replace("hmac-sha256", "");
+        let local = ConnectionInfo::parse(&unsigned).unwrap();
+        assert!(local.security().unwrap().unwrap().contains("empty key"));
+        for ip in ["*", "0.0.0.0", "192.168.1.5", "::"] {
+            let c = ConnectionInfo::parse(&unsigned.replace("127.0.0.1", ip)).unwrap();
+            let e = c.security().unwrap_err();
+            assert!(e.contains(ip), "{e}");
+        }
+        for ip in ["::1", "localhost", "127.0.0.2"] {
+            let c = ConnectionInfo::parse(&unsigned.replace("127.0.0.1", ip)).unwrap();
+            assert!(c.security().is_ok(), "{ip}");
+        }
+        // Signed: nothing to say, on any address.
+        let c = ConnectionInfo::parse(&FILE.replace("127.0.0.1", "*")).unwrap();
+        assert_eq!(c.security(), Ok(None));
     }
 
     #[test]

@@ -20,5 +20,5 @@ pub mod message;
 pub mod watch;
 pub mod wire;
 
-pub use channels::serve;
+pub use channels::{DEFAULT_MAX_MESSAGE_BYTES, Limits, serve};
 pub use connection::ConnectionInfo;

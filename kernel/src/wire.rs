@@ -4,11 +4,19 @@
 //! metadata, content, buffers…]`. Incoming frames are checked in this order: the delimiter is
 //! found, at least the four JSON frames follow the signature, the HMAC-SHA256 over exactly the
 //! four received JSON frames is verified in constant time — and only then is any JSON parsed.
-//! Signing covers the same four frames and never the buffers.
+//! Signing covers the same four frames and never the buffers. A signed message whose
+//! signature was already seen in this session is a replay and is dropped, as the protocol's
+//! reference implementation does; the memory of signatures is bounded ([`REPLAY_MEMORY`]).
 
 use hmac::{Hmac, KeyInit, Mac};
 use serde_json::{Map, Value};
 use sha2::Sha256;
+use std::collections::{HashSet, VecDeque};
+use std::sync::{Arc, Mutex};
+
+/// How many recent signatures are remembered to refuse replays. A replay of a message older
+/// than this many messages is not detected; 65,536 signatures take about 6 MiB.
+pub const REPLAY_MEMORY: usize = 65_536;
 
 /// The delimiter between routing identities and the message.
 pub const DELIMITER: &[u8] = b"<IDS|MSG>";
@@ -22,6 +30,8 @@ pub enum WireError {
     TooFewFrames(usize),
     /// The signature does not match (or is missing).
     BadSignature,
+    /// The signature was already seen: the same signed message sent again.
+    Replayed,
     /// A JSON frame does not parse, or the header lacks msg_type.
     BadJson(String),
 }
@@ -32,6 +42,7 @@ impl std::fmt::Display for WireError {
             WireError::NoDelimiter => write!(f, "no <IDS|MSG> delimiter"),
             WireError::TooFewFrames(n) => write!(f, "only {n} frames after the delimiter (need 5)"),
             WireError::BadSignature => write!(f, "bad or missing signature"),
+            WireError::Replayed => write!(f, "a signature already seen (a replayed message)"),
             WireError::BadJson(e) => write!(f, "malformed JSON: {e}"),
         }
     }
@@ -71,10 +82,36 @@ impl Message {
     }
 }
 
-/// Signs and verifies with one key.
+/// The signatures seen recently (oldest forgotten first).
+#[derive(Default)]
+struct Seen {
+    set: HashSet<Vec<u8>>,
+    order: VecDeque<Vec<u8>>,
+}
+
+impl Seen {
+    /// Records `sig`; false if it was already there.
+    fn first_time(&mut self, sig: &[u8]) -> bool {
+        if self.set.contains(sig) {
+            return false;
+        }
+        if self.order.len() == REPLAY_MEMORY {
+            if let Some(old) = self.order.pop_front() {
+                self.set.remove(&old);
+            }
+        }
+        self.set.insert(sig.to_vec());
+        self.order.push_back(sig.to_vec());
+        true
+    }
+}
+
+/// Signs and verifies with one key. Clones share the memory of seen signatures, so a message
+/// replayed on another channel is refused too.
 #[derive(Clone)]
 pub struct Signer {
     key: Vec<u8>,
+    seen: Arc<Mutex<Seen>>,
 }
 
 impl Signer {
@@ -82,7 +119,13 @@ impl Signer {
     pub fn new(key: &str) -> Signer {
         Signer {
             key: key.as_bytes().to_vec(),
+            seen: Arc::default(),
         }
+    }
+
+    /// Whether messages are signed (the key is not empty).
+    pub fn is_signed(&self) -> bool {
+        !self.key.is_empty()
     }
 
     fn mac(&self) -> Option<Hmac<Sha256>> {
@@ -140,6 +183,12 @@ impl Signer {
         ];
         if !self.verify(&rest[0], parts) {
             return Err(WireError::BadSignature);
+        }
+        if self.is_signed() {
+            let mut seen = self.seen.lock().unwrap_or_else(|p| p.into_inner());
+            if !seen.first_time(&rest[0]) {
+                return Err(WireError::Replayed);
+            }
         }
         let obj = |b: &[u8], what: &str| -> Result<Map<String, Value>, WireError> {
             match serde_json::from_slice::<Value>(b) {
@@ -207,6 +256,33 @@ mod tests {
         let s = Signer::new("secret");
         let frames = s.encode(&msg());
         assert_eq!(s.decode(&frames).unwrap(), msg());
+    }
+
+    #[test]
+    fn a_replayed_message_is_dropped_on_every_clone() {
+        let s = Signer::new("secret");
+        let frames = s.encode(&msg());
+        assert!(s.decode(&frames).is_ok());
+        assert_eq!(s.decode(&frames), Err(WireError::Replayed));
+        assert_eq!(s.clone().decode(&frames), Err(WireError::Replayed));
+        // A forged copy is refused for its signature and does not enter the memory.
+        let mut forged = frames.clone();
+        let d = forged.iter().position(|f| f == DELIMITER).unwrap();
+        forged[d + 1] = b"00".to_vec();
+        assert_eq!(s.decode(&forged), Err(WireError::BadSignature));
+    }
+
+    #[test]
+    fn the_memory_of_signatures_is_bounded() {
+        let mut seen = Seen::default();
+        for i in 0..REPLAY_MEMORY + 10 {
+            assert!(seen.first_time(&i.to_le_bytes()));
+        }
+        assert_eq!(seen.set.len(), REPLAY_MEMORY);
+        assert_eq!(seen.order.len(), REPLAY_MEMORY);
+        // The oldest were forgotten; the newest are still refused.
+        assert!(seen.first_time(&0usize.to_le_bytes()));
+        assert!(!seen.first_time(&(REPLAY_MEMORY + 9).to_le_bytes()));
     }
 
     #[test]

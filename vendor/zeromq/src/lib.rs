@@ -353,6 +353,8 @@ pub struct SocketOptions {
     // Shared by read preparation and decoder reservation.
     pub(crate) read_buffer_max_size: usize,
     pub(crate) read_buffer_short_reads: usize,
+    // Partita patch (PATCH.md): the most bytes one inbound message may hold.
+    pub(crate) max_message_size: Option<usize>,
 }
 
 impl Default for SocketOptions {
@@ -363,6 +365,7 @@ impl Default for SocketOptions {
             read_buffer_initial_size: 128,
             read_buffer_max_size: 64 * 1024,
             read_buffer_short_reads: 2,
+            max_message_size: None,
         }
     }
 }
@@ -416,6 +419,17 @@ impl SocketOptions {
         self.read_buffer_initial_size = initial_size;
         self.read_buffer_max_size = max_size;
         self.read_buffer_short_reads = short_reads;
+        self
+    }
+
+    /// Partita patch (PATCH.md): bounds every inbound message, frames and commands included,
+    /// to `max_bytes` (each frame also counts 64 bytes of bookkeeping). A peer whose frame
+    /// header declares more is disconnected before anything is reserved for the frame, with a
+    /// line on stderr; the socket keeps serving its other peers. Without it (the default)
+    /// a declared length is trusted, and a 9-byte header can make the reader reserve any
+    /// amount of memory.
+    pub fn max_message_size(&mut self, max_bytes: usize) -> &mut Self {
+        self.max_message_size = Some(max_bytes);
         self
     }
 

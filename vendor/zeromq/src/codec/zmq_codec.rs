@@ -33,7 +33,15 @@ pub struct ZmqCodec {
     // internal details to higher levels
     buffered_message: Option<ZmqMessage>,
     max_read_chunk_size: usize,
+    // Partita patch (PATCH.md): the bound on one inbound message and what the message being
+    // assembled holds so far.
+    max_message_size: Option<usize>,
+    buffered_len: usize,
 }
+
+/// Bookkeeping counted per frame against the message bound, so that a flood of empty frames
+/// is bounded too (Partita patch, PATCH.md).
+const FRAME_OVERHEAD: usize = 64;
 
 impl ZmqCodec {
     pub fn new() -> Self {
@@ -46,6 +54,8 @@ impl ZmqCodec {
             waiting_for: 64, // len of the greeting frame
             buffered_message: None,
             max_read_chunk_size: options.read_buffer_max_size,
+            max_message_size: options.max_message_size,
+            buffered_len: 0,
         }
     }
 
@@ -123,6 +133,23 @@ impl Decoder for ZmqCodec {
                     } else {
                         usize::from(src.get_u8())
                     };
+                    // Partita patch (PATCH.md): refuse a frame that would take the message past
+                    // its bound before anything is reserved for it.
+                    if let Some(max) = self.max_message_size {
+                        let total = self
+                            .buffered_len
+                            .saturating_add(frame_len)
+                            .saturating_add(FRAME_OVERHEAD);
+                        if total > max {
+                            eprintln!(
+                                "zeromq: a peer announced a frame of {frame_len} bytes, which takes its message past the limit of {max} bytes; the connection is closed"
+                            );
+                            return Err(CodecError::Decode(
+                                "Frame length exceeds the maximum message size",
+                            ));
+                        }
+                        self.buffered_len = total;
+                    }
                     self.state = DecoderState::Frame(frame);
                     self.waiting_for = frame_len;
                 }
@@ -131,6 +158,7 @@ impl Decoder for ZmqCodec {
                     self.state = DecoderState::FrameHeader;
                     self.waiting_for = 1;
                     if frame.command {
+                        self.buffered_len = 0;
                         return Ok(Some(Message::Command(ZmqCommand::try_from(data.freeze())?)));
                     }
 
@@ -141,6 +169,7 @@ impl Decoder for ZmqCodec {
                     }
 
                     if !frame.more {
+                        self.buffered_len = 0;
                         // Quoth the Raven “Nevermore.”
                         return Ok(Some(Message::Message(
                             self.buffered_message
