@@ -70,10 +70,16 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
     if a.verb == Verb::Anova && plan.factors.len() > 1 {
         return factorial_answer(a, ds, &plan, notes, level);
     }
-    let cells = cells_of(&plan, level);
-    for (name, _) in &cells.empty {
+    let cells = cells_of(&plan, level).map_err(|e| e.at_if_none(a.verb_span))?;
+    for name in cells.empty.iter().take(10) {
         notes.push(format!(
             "level {name} has no observations in the rows used and is left out"
+        ));
+    }
+    if cells.empty.len() > 10 {
+        notes.push(format!(
+            "… and {} more combinations of levels with no observations",
+            cells.empty.len() - 10
         ));
     }
     let factor_label = plan
@@ -336,40 +342,73 @@ struct Cells {
     /// (label, shifted values) per non-empty cell, in level order.
     groups: Vec<(String, Vec<f64>)>,
     summaries: Vec<CellSummary>,
-    /// Cells with no observations.
-    empty: Vec<(String, usize)>,
+    /// Cells with no observations (only listed when the crossing is small).
+    empty: Vec<String>,
 }
 
-fn cells_of(plan: &Plan<'_>, level: f64) -> Cells {
+/// The cells that occur in the rows, in level order. The values are gathered densely when the
+/// product of level counts is small, and by the combinations that occur otherwise, so that
+/// crossing identifier-like columns never allocates by the product; more than
+/// [`crate::design::MAX_CELLS`] occurring cells are refused.
+fn cells_of(plan: &Plan<'_>, level: f64) -> Result<Cells, CellError> {
     let nf = plan.factors.len();
     let sizes: Vec<usize> = (0..nf).map(|k| plan.levels(k).len()).collect();
-    let total: usize = sizes.iter().product();
-    let mut buckets: Vec<Vec<f64>> = vec![Vec::new(); total];
-    for &i in &plan.rows {
-        let mut idx = 0;
-        for k in 0..nf {
-            idx = idx * sizes[k] + plan.code(k, i) as usize;
+    let names: Vec<&str> = plan.factors.iter().map(|f| f.name.as_str()).collect();
+    let dense = sizes
+        .iter()
+        .try_fold(1usize, |acc, &k| acc.checked_mul(k.max(1)))
+        .filter(|&t| t <= DENSE_CELLS);
+    let mut occurring: Vec<(Vec<u32>, Vec<f64>)> = Vec::new();
+    let mut empty = Vec::new();
+    let codes_of = |i: usize| -> Vec<u32> { (0..nf).map(|k| plan.code(k, i)).collect() };
+    match dense {
+        Some(total) => {
+            let mut buckets: Vec<Vec<f64>> = vec![Vec::new(); total];
+            for &i in &plan.rows {
+                let idx = (0..nf).fold(0, |acc, k| acc * sizes[k] + plan.code(k, i) as usize);
+                buckets[idx].push(plan.y.shifted[i]);
+            }
+            for (idx, vals) in buckets.into_iter().enumerate() {
+                let mut rem = idx;
+                let mut codes = vec![0u32; nf];
+                for k in (0..nf).rev() {
+                    codes[k] = (rem % sizes[k]) as u32;
+                    rem /= sizes[k];
+                }
+                if vals.is_empty() {
+                    empty.push(codes);
+                } else {
+                    occurring.push((codes, vals));
+                }
+            }
         }
-        buckets[idx].push(plan.y.shifted[i]);
+        None => {
+            let mut map: BTreeMap<Vec<u32>, Vec<f64>> = BTreeMap::new();
+            for &i in &plan.rows {
+                let key = codes_of(i);
+                if !map.contains_key(&key) && map.len() == crate::design::MAX_CELLS {
+                    return Err(crate::design::too_many_cells(&names, &sizes));
+                }
+                map.entry(key).or_default().push(plan.y.shifted[i]);
+            }
+            occurring = map.into_iter().collect();
+        }
     }
+    if occurring.len() > crate::design::MAX_CELLS {
+        return Err(crate::design::too_many_cells(&names, &sizes));
+    }
+    let label = |codes: &[u32]| -> Vec<String> {
+        (0..nf)
+            .map(|k| plan.levels(k)[codes[k] as usize].clone())
+            .collect()
+    };
     let mut out = Cells {
         groups: Vec::new(),
         summaries: Vec::new(),
-        empty: Vec::new(),
+        empty: empty.iter().map(|c| label(c).join(" / ")).collect(),
     };
-    for (idx, vals) in buckets.into_iter().enumerate() {
-        let mut rem = idx;
-        let mut codes = vec![0usize; nf];
-        for k in (0..nf).rev() {
-            codes[k] = rem % sizes[k];
-            rem /= sizes[k];
-        }
-        let names: Vec<String> = (0..nf).map(|k| plan.levels(k)[codes[k]].clone()).collect();
-        let label = names.join(" / ");
-        if vals.is_empty() {
-            out.empty.push((label, idx));
-            continue;
-        }
+    for (codes, vals) in occurring {
+        let names = label(&codes);
         let levels: BTreeMap<String, String> = plan
             .factors
             .iter()
@@ -378,10 +417,13 @@ fn cells_of(plan: &Plan<'_>, level: f64) -> Cells {
             .collect();
         out.summaries
             .push(summarise(levels, &vals, plan.y.offset, level));
-        out.groups.push((label, vals));
+        out.groups.push((names.join(" / "), vals));
     }
-    out
+    Ok(out)
 }
+
+/// Crossings with at most this many combinations are gathered densely.
+const DENSE_CELLS: usize = 1 << 16;
 
 use crate::render::svg::MAX_DRAWN;
 

@@ -283,7 +283,7 @@ pub(crate) fn run(a: &Analysis, ds: &Dataset, named: bool) -> Result<Answer, Cel
         } else if method == Method::Dunnett {
             let (cname, cspan) = control.clone().ok_or_else(|| {
                 CellError::input("`method dunnett` needs the control level: `with method dunnett, control \"LEVEL\"`")
-                    .note(format!("levels: {}", fam.groups.iter().map(|g| g.name.as_str()).collect::<Vec<_>>().join(", ")))
+                    .note(format!("levels: {}", crate::error::listing(fam.groups.iter().map(|g| g.name.as_str()))))
             })?;
             let ci = fam
                 .groups

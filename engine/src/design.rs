@@ -5,7 +5,7 @@
 //! aside with a note. Nothing downstream re-checks names.
 
 use crate::data::{Column, ColumnData, Dataset, MISSING, NumericColumn};
-use crate::error::{CellError, nearest};
+use crate::error::{CellError, listing, nearest};
 use crate::lang::ast::{Analysis, Expr, Name, Value};
 
 /// A checked analysis: the columns and the rows to use.
@@ -57,10 +57,7 @@ pub fn column<'a>(ds: &'a Dataset, name: &Name, role: &str) -> Result<&'a Column
         ))
         .at(name.span)
         .suggest(nearest(&name.value, ds.column_names()))
-        .note(format!(
-            "columns: {}",
-            ds.column_names().collect::<Vec<_>>().join(", ")
-        ))
+        .note(format!("columns: {}", listing(ds.column_names())))
     })
 }
 
@@ -79,8 +76,10 @@ pub fn resolve<'a>(a: &Analysis, ds: &'a Dataset) -> Result<Plan<'a>, CellError>
                     .at(a.response.span);
             if let Some((i, text)) = first {
                 e = e.note(format!(
-                    "its first non-numeric value is \"{text}\" on line {} of {}",
-                    ds.lines[i], ds.source
+                    "its first non-numeric value is \"{}\" on line {} of {}",
+                    crate::error::excerpt(&text),
+                    ds.lines[i],
+                    ds.source
                 ));
             }
             return Err(e.note("fix the value in the file, or mark it missing (empty, NA or .)"));
@@ -104,9 +103,16 @@ pub fn resolve<'a>(a: &Analysis, ds: &'a Dataset) -> Result<Plan<'a>, CellError>
         }
         None => None,
     };
-    let mut factors = Vec::new();
+    let mut factors: Vec<&Column> = Vec::new();
     for f in &a.factors {
         let col = column(ds, f, "a factor")?;
+        if factors.iter().any(|c| c.name == col.name) {
+            return Err(CellError::design(format!(
+                "\"{}\" is named twice after `across`; each factor is named once",
+                col.name
+            ))
+            .at(f.span));
+        }
         if matches!(col.data, ColumnData::Numeric(_)) {
             return Err(CellError::design(format!(
                 "\"{}\" is numeric; a factor needs levels",
@@ -187,6 +193,41 @@ pub fn resolve<'a>(a: &Analysis, ds: &'a Dataset) -> Result<Plan<'a>, CellError>
     })
 }
 
+/// The most cells a crossing of factors may have: every model of the crossed layout holds
+/// matrices over its cells, and a table or figure of more is unreadable.
+pub const MAX_CELLS: usize = 2_000;
+
+/// The number of combinations of levels of factors `names` with `sizes` levels each, or a
+/// `DesignError` when it passes [`MAX_CELLS`] (checked without overflow: never allocate by
+/// the product of level counts before this says yes).
+pub fn crossing(names: &[&str], sizes: &[usize]) -> Result<usize, CellError> {
+    let total = sizes
+        .iter()
+        .try_fold(1usize, |acc, &k| acc.checked_mul(k.max(1)))
+        .filter(|&t| t <= MAX_CELLS);
+    total.ok_or_else(|| too_many_cells(names, sizes))
+}
+
+/// The error for a crossing with more than [`MAX_CELLS`] cells.
+pub fn too_many_cells(names: &[&str], sizes: &[usize]) -> CellError {
+    let count = sizes.iter().map(|&k| k as f64).product::<f64>().min(1e300);
+    let shown = if count < 1e15 {
+        format!("{}", count as u64)
+    } else {
+        format!("about {count:.1e}")
+    };
+    CellError::design(format!(
+        "{} ({} levels) make {shown} cells; at most {MAX_CELLS} cells can be analysed",
+        names.join(" × "),
+        sizes
+            .iter()
+            .map(|k| k.to_string())
+            .collect::<Vec<_>>()
+            .join(" × ")
+    ))
+    .note("a factor with nearly one level per row is usually an identifier: name it with `subject`, or leave it out of `across`")
+}
+
 /// "s" for counts other than one.
 pub fn plural(n: usize) -> &'static str {
     if n == 1 { "" } else { "s" }
@@ -203,20 +244,22 @@ fn list_lines(lines: &[usize]) -> String {
 
 fn eval(e: &Expr, ds: &Dataset, mask: &mut [bool]) -> Result<(), CellError> {
     match e {
-        Expr::And(l, r) => {
-            let mut m2 = vec![true; mask.len()];
-            eval(l, ds, mask)?;
-            eval(r, ds, &mut m2)?;
-            mask.iter_mut().zip(m2).for_each(|(a, b)| *a = *a && b);
-        }
-        Expr::Or(l, r) => {
-            let mut m1 = vec![true; mask.len()];
-            let mut m2 = vec![true; mask.len()];
-            eval(l, ds, &mut m1)?;
-            eval(r, ds, &mut m2)?;
-            for (i, a) in mask.iter_mut().enumerate() {
-                *a = *a && (m1[i] || m2[i]);
+        // Each part narrows `mask` in turn; nothing recurses along a chain, and only the
+        // nesting of parentheses (bounded by the parser) adds scratch masks.
+        Expr::All(parts) => {
+            for p in parts {
+                eval(p, ds, mask)?;
             }
+        }
+        Expr::Any(parts) => {
+            let mut any = vec![false; mask.len()];
+            let mut part = vec![true; mask.len()];
+            for p in parts {
+                part.iter_mut().for_each(|m| *m = true);
+                eval(p, ds, &mut part)?;
+                any.iter_mut().zip(&part).for_each(|(a, &b)| *a = *a || b);
+            }
+            mask.iter_mut().zip(any).for_each(|(a, b)| *a = *a && b);
         }
         Expr::Compare {
             column: name,
@@ -327,6 +370,9 @@ fn level_code(
             CellError::data(format!("\"{}\" has no level \"{text}\"", col.name))
                 .at(span)
                 .suggest(nearest(text, levels.iter().map(String::as_str)))
-                .note(format!("levels: {}", levels.join(", ")))
+                .note(format!(
+                    "levels: {}",
+                    listing(levels.iter().map(String::as_str))
+                ))
         })
 }

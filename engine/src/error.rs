@@ -159,11 +159,62 @@ pub fn floor_char_boundary(s: &str, pos: usize) -> usize {
     p
 }
 
+/// Most characters of a user's text (a value, a name, a header) echoed in a message.
+pub const EXCERPT_CHARS: usize = 80;
+
+/// `s` cut to [`EXCERPT_CHARS`] characters, with "…" and the full length when cut: a message
+/// never repeats a 100 MB cell or header.
+pub fn excerpt(s: &str) -> String {
+    excerpt_to(s, EXCERPT_CHARS)
+}
+
+/// `s` cut to `max` characters, marked when cut.
+pub fn excerpt_to(s: &str, max: usize) -> String {
+    match s.char_indices().nth(max) {
+        None => s.to_string(),
+        Some((at, _)) => format!("{}… ({} characters)", &s[..at], s.chars().count()),
+    }
+}
+
+/// Most items of a list (columns, levels, datasets) named in a message.
+pub const LISTED_ITEMS: usize = 20;
+
+/// The first [`LISTED_ITEMS`] items, each cut to 40 characters, then "… (N more)".
+pub fn listing<'a, I: IntoIterator<Item = &'a str>>(items: I) -> String {
+    let mut out: Vec<String> = Vec::new();
+    let mut more = 0usize;
+    for it in items {
+        if out.len() < LISTED_ITEMS {
+            out.push(excerpt_to(it, 40));
+        } else {
+            more += 1;
+        }
+    }
+    let mut s = out.join(", ");
+    if more > 0 {
+        s.push_str(&format!(", … ({more} more)"));
+    }
+    s
+}
+
+/// Candidates longer than this are not offered as "did you mean" (a typo of a long name is
+/// not a typo), and at most [`NEAREST_CANDIDATES`] are compared, so a suggestion costs little
+/// whatever the data holds.
+const NEAREST_LONGEST: usize = 64;
+const NEAREST_CANDIDATES: usize = 10_000;
+
 /// The closest candidate to `word` by edit distance, if close enough to be a likely typo.
 pub fn nearest<'a, I: IntoIterator<Item = &'a str>>(word: &str, candidates: I) -> Option<String> {
+    if word.chars().count() > NEAREST_LONGEST {
+        return None;
+    }
     let w = word.to_lowercase();
     let mut best: Option<(usize, &str)> = None;
-    for c in candidates {
+    for c in candidates
+        .into_iter()
+        .take(NEAREST_CANDIDATES)
+        .filter(|c| c.len() <= 4 * NEAREST_LONGEST && c.chars().count() <= NEAREST_LONGEST)
+    {
         let d = edit_distance(&w, &c.to_lowercase());
         if best.is_none_or(|(bd, _)| d < bd) {
             best = Some((d, c));
@@ -209,6 +260,25 @@ mod tests {
     fn line_and_column_count_characters() {
         assert_eq!(line_col("ab\ncd", 4), (2, 2));
         assert_eq!(line_col("é x", 3), (1, 3));
+    }
+
+    #[test]
+    fn excerpts_and_listings_are_bounded() {
+        assert_eq!(excerpt("short"), "short");
+        let long = "x".repeat(1_000_000);
+        let e = excerpt(&long);
+        assert!(e.len() < 120 && e.ends_with("(1000000 characters)"), "{e}");
+        let names: Vec<String> = (0..100_000).map(|i| format!("c{i}")).collect();
+        let l = listing(names.iter().map(String::as_str));
+        assert!(
+            l.starts_with("c0, c1,") && l.ends_with("… (99980 more)"),
+            "{l}"
+        );
+        assert!(nearest(&long, ["x"]).is_none());
+        assert_eq!(
+            nearest("wieght", [long.as_str(), "weight"]),
+            Some("weight".into())
+        );
     }
 
     #[test]

@@ -95,6 +95,8 @@ pub(crate) fn layout(plan: &Plan<'_>, a: &Analysis) -> Result<Layout, CellError>
         levels.push(used);
     }
     let sizes: Vec<usize> = levels.iter().map(Vec::len).collect();
+    let names: Vec<&str> = plan.factors.iter().map(|f| f.name.as_str()).collect();
+    crate::design::crossing(&names, &sizes).map_err(|e| e.at(a.verb_span))?;
     let cell: Vec<usize> = plan
         .rows
         .iter()

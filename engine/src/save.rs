@@ -16,18 +16,43 @@ fn same_file(a: &Path, b: &Path) -> bool {
     }
 }
 
-/// Writes `bytes` to `path` through a temporary file in the same folder.
+/// Writes `bytes` to `path` through a temporary file in the same folder, then a rename, so the
+/// file is whole or untouched. The temporary file has an unpredictable name and is created
+/// exclusively (an existing file or link at that name is refused, never followed), and it is
+/// removed on every failure.
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
+    use rand::Rng;
+    use std::io::Write;
     let dir = path
         .parent()
         .filter(|p| !p.as_os_str().is_empty())
         .unwrap_or(Path::new("."));
     let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("out");
-    let tmp = dir.join(format!(".{name}.partita-tmp-{}", std::process::id()));
-    std::fs::write(&tmp, bytes)?;
-    std::fs::rename(&tmp, path).inspect_err(|_| {
+    let mut rng = rand::rng();
+    let (tmp, mut file) = loop {
+        let tag: u64 = rng.random();
+        let tmp = dir.join(format!(".{name}.partita-{tag:016x}.tmp"));
+        match std::fs::OpenOptions::new()
+            .write(true)
+            .create_new(true)
+            .open(&tmp)
+        {
+            Ok(f) => break (tmp, f),
+            Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => continue,
+            Err(e) => return Err(e),
+        }
+    };
+    let written = file
+        .write_all(bytes)
+        .and_then(|_| file.sync_all())
+        .and_then(|_| {
+            drop(file);
+            std::fs::rename(&tmp, path)
+        });
+    if written.is_err() {
         let _ = std::fs::remove_file(&tmp);
-    })
+    }
+    written
 }
 
 /// The embedded font for rasterised text.

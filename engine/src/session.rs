@@ -46,6 +46,9 @@ pub struct Session {
     /// Headline and content hash of each analysis statement's last answer, keyed by the
     /// statement's text and dataset: the "was … → now …" line when the data changed.
     history: BTreeMap<(String, String), (String, String)>,
+    /// Every file read as data in this session, canonical where it can be: `save` never
+    /// writes over one of them.
+    read_files: std::collections::BTreeSet<PathBuf>,
     /// The last answer with tables or a figure (for `save LAST`).
     last: Option<Answer>,
     /// Watched datasets and the statements that follow them.
@@ -222,7 +225,7 @@ impl Session {
                 options,
             } => {
                 let full = self.full_path(&path.value);
-                let inputs: Vec<PathBuf> = self.origins.values().map(|o| o.0.clone()).collect();
+                let inputs: Vec<PathBuf> = self.read_files.iter().cloned().collect();
                 crate::save::save(self.last.as_ref(), what, path, &full, options, &inputs).map(Some)
             }
             StmtKind::Help { topic } => help_answer(topic.as_ref()).map(Some),
@@ -267,7 +270,7 @@ impl Session {
                             .suggest(nearest(&n.value, self.dataset_names()))
                             .note(format!(
                                 "datasets: {}",
-                                self.dataset_names().collect::<Vec<_>>().join(", ")
+                                crate::error::listing(self.dataset_names())
                             ));
                     }
                     e
@@ -359,6 +362,8 @@ impl Session {
         }
         let full = self.full_path(&path.value);
         let bytes = read_bytes(&full, &path.value).map_err(|e| e.at_if_none(path.span))?;
+        self.read_files
+            .insert(full.canonicalize().unwrap_or_else(|_| full.clone()));
         let sheet_opt = options.iter().find(|o| o.name.value == "sheet");
         let spreadsheet = crate::data::sheet::is_spreadsheet(&full);
         if let (Some(o), false) = (sheet_opt, spreadsheet) {
@@ -513,9 +518,10 @@ impl Session {
         let (ds, _) = self.dataset(Some(name))?;
         let shown = rows.min(ds.n_rows());
         let mut cols = vec![("line".to_string(), Align::Right)];
-        cols.extend(ds.columns.iter().map(|c| {
+        let listed = &ds.columns[..ds.columns.len().min(SHOWN_COLUMNS)];
+        cols.extend(listed.iter().map(|c| {
             (
-                format!("{} ({})", c.name, c.type_name()),
+                format!("{} ({})", crate::error::excerpt(&c.name), c.type_name()),
                 if c.type_name() == "numeric" {
                     Align::Right
                 } else {
@@ -526,7 +532,7 @@ impl Session {
         let trows = (0..shown)
             .map(|i| {
                 let mut r = vec![ds.lines[i].to_string()];
-                r.extend(ds.columns.iter().map(|c| c.text(i)));
+                r.extend(listed.iter().map(|c| crate::error::excerpt(&c.text(i))));
                 r
             })
             .collect();
@@ -570,7 +576,10 @@ impl Session {
                     CellError::data(format!("\"{colname}\" has no level \"{}\"", l.value))
                         .at(l.span)
                         .suggest(nearest(&l.value, f.levels.iter().map(String::as_str)))
-                        .note(format!("levels: {}", f.levels.join(", "))),
+                        .note(format!(
+                            "levels: {}",
+                            crate::error::listing(f.levels.iter().map(String::as_str))
+                        )),
                 );
             }
             if seen.contains(&l.value) {
@@ -748,7 +757,12 @@ fn column_summary(c: &crate::data::Column) -> String {
             s
         }
         ColumnData::Factor(f) => {
-            let shown: Vec<&str> = f.levels.iter().take(12).map(String::as_str).collect();
+            let shown: Vec<String> = f
+                .levels
+                .iter()
+                .take(12)
+                .map(|l| crate::error::excerpt_to(l, 40))
+                .collect();
             let more = if f.levels.len() > 12 {
                 format!(", … ({} more)", f.levels.len() - 12)
             } else {
@@ -776,6 +790,9 @@ fn delimiter_name(d: u8) -> &'static str {
     }
 }
 
+/// Most columns listed in the answer of `read` (and `show`); the rest are counted in a note.
+const SHOWN_COLUMNS: usize = 200;
+
 fn read_answer(ds: &Dataset) -> Answer {
     let head = format!(
         "dataset {}: {} row{} × {} column{} from {} ({})",
@@ -788,11 +805,21 @@ fn read_answer(ds: &Dataset) -> Answer {
         delimiter_name(ds.delimiter)
     );
     let mut plain = head.clone();
-    for c in &ds.columns {
-        plain.push_str(&format!("\n  {}: {}", c.name, column_summary(c)));
+    let listed = &ds.columns[..ds.columns.len().min(SHOWN_COLUMNS)];
+    for c in listed {
+        plain.push_str(&format!(
+            "\n  {}: {}",
+            crate::error::excerpt(&c.name),
+            column_summary(c)
+        ));
     }
-    let cols: Vec<Json> = ds
-        .columns
+    let hidden = ds.columns.len() - listed.len();
+    if hidden > 0 {
+        plain.push_str(&format!(
+            "\n  … and {hidden} more columns (the first {SHOWN_COLUMNS} are listed)"
+        ));
+    }
+    let cols: Vec<Json> = listed
         .iter()
         .map(|c| {
             let levels = match &c.data {
@@ -814,12 +841,25 @@ fn read_answer(ds: &Dataset) -> Answer {
                 ("type".into(), Align::Left),
                 ("summary".into(), Align::Left),
             ],
-            rows: ds
-                .columns
+            rows: listed
                 .iter()
-                .map(|c| vec![c.name.clone(), c.type_name().into(), column_summary(c)])
+                .map(|c| {
+                    vec![
+                        crate::error::excerpt(&c.name),
+                        c.type_name().into(),
+                        column_summary(c),
+                    ]
+                })
                 .collect(),
         }],
+        notes: if hidden > 0 {
+            vec![format!(
+                "{} columns in all: the first {SHOWN_COLUMNS} are listed here (and in the bundle)",
+                ds.columns.len()
+            )]
+        } else {
+            Vec::new()
+        },
         plain: Some(plain),
         design: Json::Null,
         bundle_tables,

@@ -93,6 +93,49 @@ impl SubjectDesign {
     }
 }
 
+/// Sums and counts of values by subject × within cell.
+enum CellSums {
+    Dense(Vec<f64>, Vec<u32>),
+    Sparse(HashMap<usize, (f64, u32)>),
+}
+
+impl CellSums {
+    fn new(subjects: usize, cells: usize, rows: usize) -> CellSums {
+        match subjects.checked_mul(cells) {
+            Some(n) if n <= rows.saturating_mul(4).max(1 << 20) => {
+                CellSums::Dense(vec![0.0; n], vec![0; n])
+            }
+            _ => CellSums::Sparse(HashMap::with_capacity(rows)),
+        }
+    }
+    fn add(&mut self, at: usize, v: f64) {
+        match self {
+            CellSums::Dense(s, c) => {
+                s[at] += v;
+                c[at] += 1;
+            }
+            CellSums::Sparse(m) => {
+                let e = m.entry(at).or_insert((0.0, 0));
+                e.0 += v;
+                e.1 += 1;
+            }
+        }
+    }
+    /// The cells holding more than one value.
+    fn repeated(&self) -> Vec<usize> {
+        match self {
+            CellSums::Dense(_, c) => (0..c.len()).filter(|&at| c[at] > 1).collect(),
+            CellSums::Sparse(m) => m.iter().filter(|e| e.1.1 > 1).map(|e| *e.0).collect(),
+        }
+    }
+    fn get(&self, at: usize) -> (f64, u32) {
+        match self {
+            CellSums::Dense(s, c) => (s[at], c[at]),
+            CellSums::Sparse(m) => m.get(&at).copied().unwrap_or((0.0, 0)),
+        }
+    }
+}
+
 fn decode(mut idx: usize, fs: &[FactorUse]) -> Vec<&str> {
     let mut out = vec![""; fs.len()];
     for (k, f) in fs.iter().enumerate().rev() {
@@ -241,19 +284,28 @@ pub fn build(plan: &Plan<'_>, duplicates_error: bool) -> Result<SubjectDesign, C
     let w_idx: Vec<usize> = (0..nf).filter(|&k| within_flags[k]).collect();
     let b_idx: Vec<usize> = (0..nf).filter(|&k| !within_flags[k]).collect();
     let wsizes: Vec<usize> = w_idx.iter().map(|&k| used_levels[k].len()).collect();
-    let n_cells: usize = wsizes.iter().product::<usize>().max(1);
-    // Sums and counts per subject × within cell.
-    let mut sums = vec![0.0f64; n_ids * n_cells];
-    let mut counts = vec![0u32; n_ids * n_cells];
+    let wnames: Vec<&str> = w_idx
+        .iter()
+        .map(|&k| plan.factors[k].name.as_str())
+        .collect();
+    let n_cells = crate::design::crossing(&wnames, &wsizes)?;
+    let bnames: Vec<&str> = b_idx
+        .iter()
+        .map(|&k| plan.factors[k].name.as_str())
+        .collect();
+    let bsizes_all: Vec<usize> = b_idx.iter().map(|&k| used_levels[k].len()).collect();
+    crate::design::crossing(&bnames, &bsizes_all)?;
+    // Sums and counts per subject × within cell: dense when the table is small next to the
+    // rows, by the combinations that occur otherwise (never by the product of the counts).
+    let mut cells = CellSums::new(n_ids, n_cells, plan.rows.len());
     for &i in &plan.rows {
         let mut c = 0;
         for (j, &k) in w_idx.iter().enumerate() {
             c = c * wsizes[j] + compact[k][plan.code(k, i) as usize] as usize;
         }
-        let at = scode[i] * n_cells + c;
-        sums[at] += plan.y.shifted[i];
-        counts[at] += 1;
+        cells.add(scode[i] * n_cells + c, plan.y.shifted[i]);
     }
+    let counts = |at: usize| cells.get(at).1;
     let within_uses: Vec<FactorUse> = w_idx
         .iter()
         .map(|&k| FactorUse {
@@ -265,11 +317,12 @@ pub fn build(plan: &Plan<'_>, duplicates_error: bool) -> Result<SubjectDesign, C
         })
         .collect();
     let cell_name = |c: usize| decode(c, &within_uses).join(" / ");
-    let dups: Vec<(usize, usize)> = present
-        .iter()
-        .flat_map(|&s| (0..n_cells).map(move |c| (s, c)))
-        .filter(|&(s, c)| counts[s * n_cells + c] > 1)
+    let mut dups: Vec<(usize, usize)> = cells
+        .repeated()
+        .into_iter()
+        .map(|at| (at / n_cells, at % n_cells))
         .collect();
+    dups.sort_unstable();
     if !dups.is_empty() {
         let examples: Vec<String> = dups
             .iter()
@@ -280,7 +333,7 @@ pub fn build(plan: &Plan<'_>, duplicates_error: bool) -> Result<SubjectDesign, C
                 } else {
                     String::new()
                 };
-                format!("{}{cell} ({} values)", ids[s], counts[s * n_cells + c])
+                format!("{}{cell} ({} values)", ids[s], counts(s * n_cells + c))
             })
             .collect();
         if duplicates_error {
@@ -293,7 +346,7 @@ pub fn build(plan: &Plan<'_>, duplicates_error: bool) -> Result<SubjectDesign, C
             ))
             .note("leave out `with duplicates error` to average them, or fix the file"));
         }
-        let values: u32 = dups.iter().map(|&(s, c)| counts[s * n_cells + c]).sum();
+        let values: u32 = dups.iter().map(|&(s, c)| counts(s * n_cells + c)).sum();
         if n_cells == 1 {
             notes.push(format!(
                 "no factor named changes within subjects, so the {values} values of {} subjects were averaged into one per subject",
@@ -312,7 +365,7 @@ pub fn build(plan: &Plan<'_>, duplicates_error: bool) -> Result<SubjectDesign, C
     let mut incomplete: Vec<String> = Vec::new();
     let mut rows_dropped = 0;
     for &s in &present {
-        if (0..n_cells).all(|c| counts[s * n_cells + c] > 0) {
+        if (0..n_cells).all(|c| counts(s * n_cells + c) > 0) {
             complete.push(s);
         } else {
             incomplete.push(ids[s].clone());
@@ -412,8 +465,8 @@ pub fn build(plan: &Plan<'_>, duplicates_error: bool) -> Result<SubjectDesign, C
     let mut y = DMatrix::<f64>::zeros(complete.len(), n_cells);
     for (t, &s) in complete.iter().enumerate() {
         for c in 0..n_cells {
-            let at = s * n_cells + c;
-            y[(t, c)] = sums[at] / counts[at] as f64;
+            let (sum, count) = cells.get(s * n_cells + c);
+            y[(t, c)] = sum / count as f64;
         }
     }
     let rows_used = complete.iter().map(|&s| rows_of[s]).sum();

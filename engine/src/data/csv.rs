@@ -60,12 +60,32 @@ pub fn read_file(
 /// The bytes of the file at `path` (`shown` as the user wrote it), with the same messages as
 /// [`read_file`].
 pub fn read_bytes(path: &std::path::Path, shown: &str) -> Result<Vec<u8>, CellError> {
-    if path.is_dir() {
-        return Err(CellError::data(format!(
-            "\"{shown}\" is a folder, not a file; give the path of a .csv or .tsv file"
-        )));
+    use std::io::Read;
+    // Only a regular file is read, and that is checked before it is opened: a FIFO would block
+    // the kernel waiting for a writer, a device such as /dev/zero would read without end.
+    let refuse = |what: &str| {
+        CellError::data(format!(
+            "\"{shown}\" is {what}, not a regular file; give the path of a .csv, .tsv or spreadsheet file"
+        ))
+    };
+    match std::fs::metadata(path) {
+        Ok(m) if m.is_dir() => return Err(refuse("a folder")),
+        Ok(m) if !m.is_file() => return Err(refuse(special_kind(&m))),
+        _ => {}
     }
-    std::fs::read(path).map_err(|e| {
+    let opened = std::fs::File::open(path).and_then(|f| {
+        let m = f.metadata()?;
+        Ok((f, m))
+    });
+    let read = opened.and_then(|(mut f, m)| {
+        if !m.is_file() {
+            return Ok(Err(refuse(special_kind(&m))));
+        }
+        let mut bytes = Vec::with_capacity(m.len() as usize);
+        f.read_to_end(&mut bytes)?;
+        Ok(Ok(bytes))
+    });
+    read.map_err(|e| {
         let what = match e.kind() {
             std::io::ErrorKind::NotFound => "there is no such file".to_string(),
             std::io::ErrorKind::PermissionDenied => "permission to read it was refused".to_string(),
@@ -75,7 +95,22 @@ pub fn read_bytes(path: &std::path::Path, shown: &str) -> Result<Vec<u8>, CellEr
         let looked = std::path::absolute(path).unwrap_or_else(|_| path.to_path_buf());
         CellError::data(format!("cannot read \"{shown}\": {what}"))
             .note(format!("looked for {}", looked.display()))
-    })
+    })?
+}
+
+/// What a path that is not a regular file is, for the message.
+fn special_kind(m: &std::fs::Metadata) -> &'static str {
+    use std::os::unix::fs::FileTypeExt;
+    let t = m.file_type();
+    if t.is_fifo() {
+        "a named pipe (FIFO)"
+    } else if t.is_char_device() || t.is_block_device() {
+        "a device"
+    } else if t.is_socket() {
+        "a socket"
+    } else {
+        "not a file"
+    }
 }
 
 /// Parses file contents (used by [`read_file`] and by tests).
@@ -184,9 +219,10 @@ pub fn parse_bytes(
     if rows.is_empty() {
         return Err(CellError::data(format!(
             "\"{shown}\" has a header ({}) but no data rows",
-            names.join(", ")
+            crate::error::excerpt(&crate::error::listing(names.iter().map(String::as_str)))
         )));
     }
+    let mut seen = std::collections::HashSet::with_capacity(names.len());
     for (i, n) in names.iter().enumerate() {
         if n.is_empty() {
             return Err(CellError::data(format!(
@@ -196,19 +232,24 @@ pub fn parse_bytes(
             ))
             .note("give every column a name in the header row"));
         }
-        if names[..i].contains(n) {
+        if !seen.insert(n.as_str()) {
             return Err(CellError::data(format!(
-                "\"{shown}\" has two columns named \"{n}\"; rename one in the header"
+                "\"{shown}\" has two columns named \"{}\"; rename one in the header",
+                crate::error::excerpt(n)
             )));
         }
     }
     for f in &opts.factors {
         if !names.contains(f) {
             return Err(CellError::input(format!(
-                "`factor {f}`: \"{shown}\" has no column \"{f}\""
+                "`factor {0}`: \"{shown}\" has no column \"{0}\"",
+                crate::error::excerpt(f)
             ))
             .suggest(crate::error::nearest(f, names.iter().map(String::as_str)))
-            .note(format!("columns: {}", names.join(", "))));
+            .note(format!(
+                "columns: {}",
+                crate::error::listing(names.iter().map(String::as_str))
+            )));
         }
     }
     let mut columns = Vec::with_capacity(names.len());
@@ -229,9 +270,10 @@ pub fn parse_bytes(
                 Numeric::Yes(col) => ColumnData::Numeric(col),
                 Numeric::NotFinite(i) => {
                     return Err(CellError::data(format!(
-                        "column \"{name}\" line {}: the value \"{}\" is not a finite number",
+                        "column \"{}\" line {}: the value \"{}\" is not a finite number",
+                        crate::error::excerpt(name),
                         lines[i],
-                        cells[i].as_deref().unwrap_or("")
+                        crate::error::excerpt(cells[i].as_deref().unwrap_or(""))
                     ))
                     .note("mark missing values as an empty cell, NA or ."));
                 }

@@ -24,7 +24,7 @@ pub fn unpivot(
                 .suggest(nearest(&c.value, ds.column_names()))
                 .note(format!(
                     "columns: {}",
-                    ds.column_names().collect::<Vec<_>>().join(", ")
+                    crate::error::listing(ds.column_names())
                 ))
         })?;
         if picked.iter().any(|p| p.name == col.name) {

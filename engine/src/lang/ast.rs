@@ -261,10 +261,11 @@ impl Value {
 /// A `where` condition.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Expr {
-    /// Both hold.
-    And(Box<Expr>, Box<Expr>),
-    /// Either holds.
-    Or(Box<Expr>, Box<Expr>),
+    /// Every condition holds (`a and b and …`, kept flat so that a long chain neither
+    /// recurses nor nests).
+    All(Vec<Expr>),
+    /// Some condition holds (`a or b or …`).
+    Any(Vec<Expr>),
     /// `COLUMN OP VALUE`.
     Compare {
         /// The column.

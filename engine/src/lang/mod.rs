@@ -11,7 +11,7 @@ pub mod ast;
 pub mod lexer;
 pub mod parser;
 
-pub use parser::{CLAUSES, VERBS, parse, pause_enabled};
+pub use parser::{CLAUSES, MAX_CELL_BYTES, MAX_NESTING, VERBS, check_length, parse, pause_enabled};
 
 /// What a cell's text is, for the protocol's is_complete request.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -26,6 +26,9 @@ pub enum Completeness {
 
 /// Classifies `src` as complete, incomplete (a line continued with a trailing comma) or invalid.
 pub fn completeness(src: &str) -> Completeness {
+    if check_length(src).is_err() {
+        return Completeness::Invalid;
+    }
     match lexer::lex(src) {
         Ok((_, lexer::LexEnd::Continued)) => Completeness::Incomplete,
         Ok(_) => match parse(src) {

@@ -13,6 +13,12 @@ pub const VERBS: [&str; 13] = [
 /// Clause keywords after `across`.
 pub const CLAUSES: [&str; 5] = ["in", "subject", "by", "where", "with"];
 
+/// The longest cell, in bytes (a cell is a few short statements; a megabyte is far beyond any).
+pub const MAX_CELL_BYTES: usize = 1 << 20;
+
+/// The deepest nesting of parentheses in a `where` condition.
+pub const MAX_NESTING: usize = 32;
+
 /// Whether the test-only `pause` verb is on (environment variable `PARTITA_TEST_PAUSE=1`).
 pub fn pause_enabled() -> bool {
     std::env::var("PARTITA_TEST_PAUSE").is_ok_and(|v| v == "1")
@@ -20,6 +26,7 @@ pub fn pause_enabled() -> bool {
 
 /// Parses a whole cell into statements.
 pub fn parse(src: &str) -> Result<Vec<Statement>, CellError> {
+    check_length(src)?;
     let (toks, _) = lex(src)?;
     let mut out = Vec::new();
     for line in toks.split(|t| t.kind == Tok::Newline) {
@@ -30,16 +37,34 @@ pub fn parse(src: &str) -> Result<Vec<Statement>, CellError> {
             toks: line,
             pos: 0,
             end: line[line.len() - 1].span.end,
+            depth: 0,
         };
         out.push(p.statement()?);
     }
     Ok(out)
 }
 
+/// Refuses a cell longer than [`MAX_CELL_BYTES`] before anything else reads it.
+pub fn check_length(src: &str) -> Result<(), CellError> {
+    if src.len() <= MAX_CELL_BYTES {
+        return Ok(());
+    }
+    Err(CellError::syntax(
+        crate::error::Span::new(0, 0),
+        format!(
+            "this cell is {} bytes long; a cell holds at most {MAX_CELL_BYTES} bytes (1 MiB)",
+            src.len()
+        ),
+    )
+    .note("split the statements over several cells; data belongs in a file read with `read`"))
+}
+
 struct Parser<'a> {
     toks: &'a [Token],
     pos: usize,
     end: usize,
+    /// Parentheses open around the current position of a `where` condition.
+    depth: usize,
 }
 
 impl<'a> Parser<'a> {
@@ -532,23 +557,29 @@ impl<'a> Parser<'a> {
     }
 
     fn or_expr(&mut self) -> Result<Expr, CellError> {
-        let mut left = self.and_expr()?;
+        let mut any = vec![self.and_expr()?];
         while self.peek_word("or") {
             self.pos += 1;
-            let right = self.and_expr()?;
-            left = Expr::Or(Box::new(left), Box::new(right));
+            any.push(self.and_expr()?);
         }
-        Ok(left)
+        Ok(if any.len() == 1 {
+            any.remove(0)
+        } else {
+            Expr::Any(any)
+        })
     }
 
     fn and_expr(&mut self) -> Result<Expr, CellError> {
-        let mut left = self.atom()?;
+        let mut all = vec![self.atom()?];
         while self.peek_word("and") {
             self.pos += 1;
-            let right = self.atom()?;
-            left = Expr::And(Box::new(left), Box::new(right));
+            all.push(self.atom()?);
         }
-        Ok(left)
+        Ok(if all.len() == 1 {
+            all.remove(0)
+        } else {
+            Expr::All(all)
+        })
     }
 
     fn atom(&mut self) -> Result<Expr, CellError> {
@@ -559,8 +590,19 @@ impl<'a> Parser<'a> {
                 ..
             })
         ) {
+            if self.depth == MAX_NESTING {
+                return Err(CellError::syntax(
+                    self.peek().map(|t| t.span).unwrap_or_default(),
+                    format!(
+                        "parentheses nest deeper than {MAX_NESTING} levels here; a condition may nest at most {MAX_NESTING}"
+                    ),
+                )
+                .note("write the condition with fewer parentheses, or with `in (\"a\", \"b\")` for a set of levels"));
+            }
             self.pos += 1;
+            self.depth += 1;
             let e = self.or_expr()?;
+            self.depth -= 1;
             match self.next() {
                 Some(Token {
                     kind: Tok::RParen, ..
@@ -682,7 +724,7 @@ mod tests {
         assert_eq!(a.response.value, "weight");
         assert_eq!(a.factors.len(), 1);
         assert_eq!(a.dataset.unwrap().value, "trial");
-        assert!(matches!(a.filter, Some(Expr::And(_, _))));
+        assert!(matches!(&a.filter, Some(Expr::All(v)) if v.len() == 2));
     }
 
     #[test]
