@@ -822,11 +822,22 @@ fn read_answer(ds: &Dataset) -> Answer {
     let cols: Vec<Json> = listed
         .iter()
         .map(|c| {
-            let levels = match &c.data {
-                ColumnData::Factor(f) => json!(f.levels),
-                ColumnData::Numeric(_) => Json::Null,
+            // Levels as data, bounded like every message: the first 1,000, each cut to 200
+            // characters (`levels_total` counts them all).
+            let (levels, total) = match &c.data {
+                ColumnData::Factor(f) => (
+                    json!(
+                        f.levels
+                            .iter()
+                            .take(1000)
+                            .map(|l| crate::error::excerpt_to(l, 200))
+                            .collect::<Vec<_>>()
+                    ),
+                    json!(f.levels.len()),
+                ),
+                ColumnData::Numeric(_) => (Json::Null, Json::Null),
             };
-            json!({"column": c.name, "type": c.type_name(), "missing": c.missing(), "levels": levels, "label": c.label})
+            json!({"column": crate::error::excerpt_to(&c.name, 200), "type": c.type_name(), "missing": c.missing(), "levels": levels, "levels_total": total, "label": c.label})
         })
         .collect();
     let mut bundle_tables = serde_json::Map::new();
