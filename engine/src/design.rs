@@ -323,12 +323,25 @@ fn eval(e: &Expr, ds: &Dataset, mask: &mut [bool]) -> Result<(), CellError> {
             let col = column(ds, name, "in where")?;
             match &col.data {
                 ColumnData::Factor(f) => {
-                    let mut codes = Vec::new();
+                    // A mask over the level codes: linear in rows and values, however many.
+                    let index: std::collections::HashMap<&str, u32> = f
+                        .levels
+                        .iter()
+                        .enumerate()
+                        .map(|(i, l)| (l.as_str(), i as u32))
+                        .collect();
+                    let mut wanted = vec![false; f.levels.len()];
                     for v in values {
-                        codes.push(level_code(col, &f.levels, &v.value.text(), v.span)?);
+                        let text = v.value.text();
+                        let code = match index.get(text.as_str()) {
+                            Some(&c) => c,
+                            None => level_code(col, &f.levels, &text, v.span)?,
+                        };
+                        wanted[code as usize] = true;
                     }
                     for (i, m) in mask.iter_mut().enumerate() {
-                        *m = *m && codes.contains(&f.codes[i]);
+                        let c = f.codes[i];
+                        *m = *m && c != MISSING && wanted[c as usize];
                     }
                 }
                 ColumnData::Numeric(n) => {
@@ -346,8 +359,11 @@ fn eval(e: &Expr, ds: &Dataset, mask: &mut [bool]) -> Result<(), CellError> {
                             }
                         }
                     }
+                    nums.sort_by(f64::total_cmp);
                     for (i, m) in mask.iter_mut().enumerate() {
-                        *m = *m && nums.contains(&n.values[i]);
+                        let x = n.values[i];
+                        *m =
+                            *m && !x.is_nan() && nums.binary_search_by(|v| v.total_cmp(&x)).is_ok();
                     }
                 }
             }

@@ -419,6 +419,7 @@ impl Session {
             let mut sro = ro.clone();
             sro.delimiter = Some(b',');
             sro.decimal_comma = false;
+            sro.pad_short_rows = true;
             let mut ds = parse_bytes(&text, &path.value, &name.value, &sro)
                 .map_err(|e| e.at_if_none(path.span))?;
             use sha2::{Digest, Sha256};
@@ -569,9 +570,11 @@ impl Session {
                 "read the file `with factor {colname}` to treat its values as levels"
             )));
         };
+        let known: std::collections::HashSet<&str> = f.levels.iter().map(String::as_str).collect();
+        let mut named: std::collections::HashSet<&str> = std::collections::HashSet::new();
         let mut seen: Vec<String> = Vec::new();
         for l in order {
-            if !f.levels.contains(&l.value) {
+            if !known.contains(l.value.as_str()) {
                 return Err(
                     CellError::data(format!("\"{colname}\" has no level \"{}\"", l.value))
                         .at(l.span)
@@ -582,7 +585,7 @@ impl Session {
                         )),
                 );
             }
-            if seen.contains(&l.value) {
+            if !named.insert(l.value.as_str()) {
                 return Err(
                     CellError::input(format!("level \"{}\" is named twice", l.value)).at(l.span),
                 );
@@ -592,7 +595,7 @@ impl Session {
         f.reorder(&seen);
         Ok(short(format!(
             "{dsname}.{colname} levels in order: {}",
-            f.levels.join(", ")
+            crate::error::listing(f.levels.iter().map(String::as_str))
         )))
     }
 

@@ -441,3 +441,49 @@ fn a_full_disk_leaves_no_temporary_file() {
     assert!(left.is_empty(), "{left:?}");
     assert!(!exists);
 }
+
+// ---- long lists in a cell -----------------------------------------------------------------
+
+/// `in (…)` with many values and `levels` with many names are linear in rows and names (a
+/// mask over level codes, a sorted list of numbers, a map of positions).
+#[test]
+fn long_value_lists_and_level_orders_are_answered() {
+    let n = 20_000;
+    let mut csv = String::from("y,id,g\n");
+    for i in 0..n {
+        csv.push_str(&format!("{},id{i},{}\n", i % 13, ["a", "b"][i % 2]));
+    }
+    let mut s = with_data(&csv);
+    let ids: Vec<String> = (0..n / 2).map(|i| format!("\"id{}\"", 2 * i)).collect();
+    let out = run(
+        &mut s,
+        &format!("describe y across g where id in ({})", ids.join(", ")),
+    )
+    .unwrap();
+    let b = common::bundle(&out[0]);
+    assert_eq!(b["provenance"]["rows_used"], n / 2);
+    // Even ids are all in group a.
+    assert_eq!(b["tables"]["cells"].as_array().unwrap().len(), 1);
+    let nums: Vec<String> = (0..13)
+        .filter(|v| v % 2 == 0)
+        .map(|v| v.to_string())
+        .collect();
+    let out = run(
+        &mut s,
+        &format!("describe y across g where y in ({})", nums.join(", ")),
+    )
+    .unwrap();
+    let kept = common::bundle(&out[0])["provenance"]["rows_used"]
+        .as_u64()
+        .unwrap();
+    let want = (0..n).filter(|i| (i % 13) % 2 == 0).count() as u64;
+    assert_eq!(kept, want);
+    let order: Vec<String> = (0..n).rev().map(|i| format!("\"id{i}\"")).collect();
+    let out = run(&mut s, &format!("levels d.id {}", order.join(", "))).unwrap();
+    let text = out[0].data["text/plain"].as_str().unwrap();
+    assert!(
+        text.starts_with("d.id levels in order: id19999, id19998"),
+        "{text}"
+    );
+    assert!(text.len() < 1_000, "{} bytes", text.len());
+}

@@ -29,6 +29,9 @@ pub struct ReadOptions {
     pub decimal_comma: bool,
     /// The header's line number (1-based); 0 means no header.
     pub header: usize,
+    /// A row with fewer fields than the header is completed with empty (missing) fields:
+    /// rows converted from a sheet stop at their last cell.
+    pub pad_short_rows: bool,
 }
 
 impl ReadOptions {
@@ -201,6 +204,9 @@ pub fn parse_bytes(
         // A trailing separator leaves empty extra fields: accept those.
         while fields.len() > width && fields.last().is_some_and(String::is_empty) {
             fields.pop();
+        }
+        if opts.pad_short_rows && fields.len() < width {
+            fields.resize(width, String::new());
         }
         if fields.len() != width {
             return Err(CellError::data(format!(

@@ -150,15 +150,21 @@ impl FactorColumn {
     /// Reorders the levels: `order` must be a permutation of a subset; unnamed levels follow.
     pub fn reorder(&mut self, order: &[String]) {
         let mut new_levels: Vec<String> = order.to_vec();
+        let mut position: std::collections::HashMap<String, u32> = new_levels
+            .iter()
+            .enumerate()
+            .map(|(i, l)| (l.clone(), i as u32))
+            .collect();
         for l in &self.levels {
-            if !new_levels.contains(l) {
+            if !position.contains_key(l) {
+                position.insert(l.clone(), new_levels.len() as u32);
                 new_levels.push(l.clone());
             }
         }
         let map: Vec<u32> = self
             .levels
             .iter()
-            .map(|l| new_levels.iter().position(|n| n == l).unwrap_or(0) as u32)
+            .map(|l| position.get(l).copied().unwrap_or(0))
             .collect();
         for c in &mut self.codes {
             if *c != MISSING {

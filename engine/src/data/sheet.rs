@@ -98,10 +98,10 @@ fn pick_sheet(
                 ))
                 .at(span)
                 .suggest(nearest(s, names.iter().map(String::as_str)))
-                .note(format!(
-                    "sheets: {}",
-                    crate::error::listing(names.iter().map(String::as_str))
-                ))
+                .note(format!("sheets: {}", {
+                    let quoted: Vec<String> = names.iter().map(|n| format!("\"{n}\"")).collect();
+                    crate::error::listing(quoted.iter().map(String::as_str))
+                }))
             }),
         None => names
             .first()
@@ -166,7 +166,8 @@ fn text_of(c: DataRef<'_>) -> String {
 }
 
 /// The cells of a sheet turned into CSV lines as they arrive (in row order): sheet row r is
-/// line r + 1, rows with no cell are empty lines, and each line stops at its last cell.
+/// line r + 1, rows with no cell are empty lines, and each line stops at its last cell (the
+/// reader takes the missing fields after it as empty: [`super::csv::ReadOptions::pad_short_rows`]).
 struct SheetText<'a> {
     sheet: &'a str,
     w: csv::Writer<Vec<u8>>,
